@@ -51,6 +51,12 @@ const (
 	TypeFloats  SettingType = "list of float"
 	TypeInts    SettingType = "list of int"
 	TypeStrings SettingType = "list of string"
+	// TypeFiles is a glob relative to the campaign file's directory that may
+	// contain {scenario} and {block}. The pipeline expands it per instance,
+	// hashes the files into the cache key, and hands them to Run as an Input
+	// with Kind "file" and From set to the setting's name; the setting's
+	// value in Values stays the pattern text. An empty pattern means none.
+	TypeFiles SettingType = "file pattern"
 )
 
 // Setting declares one typed setting of a stage kind. Default is the Go
