@@ -104,10 +104,10 @@ func encodeMask(sb *strings.Builder, g *Grid, m []bool) {
 func TestComponentsAgainstScipy(t *testing.T) {
 	rng := rand.New(rand.NewPCG(2024, 5))
 	grids := []*Grid{
-		mustRegular(t, 10, 1, 37, 100, 1, 53),                                  // regional
-		mustRegular(t, 89, -2, 90, -179, 2, 180),                               // global, north-to-south
+		mustRegular(t, 10, 1, 37, 100, 1, 53),                                 // regional
+		mustRegular(t, 89, -2, 90, -179, 2, 180),                              // global, north-to-south
 		mustGrid(t, []float64{0, 1, 2}, []float64{170, 175, 180, -175, -170}), // regional across the antimeridian: no wrap
-		mustRegular(t, -60, 30, 5, 0, 120, 3),                                  // global with 3 columns: every column touches the seam
+		mustRegular(t, -60, 30, 5, 0, 120, 3),                                 // global with 3 columns: every column touches the seam
 	}
 	densities := []float64{0.05, 0.2, 0.4, 0.5927, 0.7, 0.95} // 0.5927: site-percolation threshold region, big tangled objects (from memory)
 	type job struct {

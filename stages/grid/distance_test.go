@@ -20,7 +20,7 @@ func TestDistanceExactCases(t *testing.T) {
 		lat1, lon1, lat2, lon2 float64
 		want                   float64
 	}{
-		{"quarter meridian", 0, 0, 90, 0, math.Pi * R / 2},               // derived: pi R / 2
+		{"quarter meridian", 0, 0, 90, 0, math.Pi * R / 2},                // derived: pi R / 2
 		{"pole to pole", -90, 10, 90, -70, math.Pi * R},                   // derived
 		{"antipodes on the equator", 0, -30, 0, 150, math.Pi * R},         // derived
 		{"antipodes off the equator", 40, 10, -40, -170, math.Pi * R},     // derived
