@@ -1,0 +1,103 @@
+package label
+
+import (
+	"math"
+
+	"github.com/squall-climate/squall/stages/grid"
+)
+
+// TCFootprint marks in out (flat, grid order) the pixels of one storm at
+// one time step:
+//
+//   - the pixels whose 10 m wind is at least thr and that are connected
+//     (8-neighbours, across the date line on a global grid) to the storm's
+//     wind maximum through such pixels, all within maxR metres of the
+//     centre; and
+//   - every pixel at most as far from the centre as the wind maximum (the
+//     eye and eyewall, where the wind may be below thr).
+//
+// This is the gale-wind area around the centre, capped at maxR so that a
+// storm embedded in a windy environment does not claim it all. Returns the
+// number of pixels marked (including ones already set).
+func TCFootprint(g *grid.Grid, wind []float64, c Candidate, thr, maxR float64, out []bool) int {
+	n, m := g.NLat(), g.NLon()
+	// Rows within maxR of the centre latitude (one degree of latitude is
+	// R*pi/180 metres on the sphere).
+	dlatDeg := maxR / grid.EarthRadius * 180 / math.Pi
+	i0, i1 := n, -1
+	for i, lat := range g.Lat {
+		if math.Abs(lat-c.Lat) <= dlatDeg+g.DLat() {
+			i0 = min(i0, i)
+			i1 = max(i1, i)
+		}
+	}
+	if i1 < 0 {
+		return 0
+	}
+	rows := i1 - i0 + 1
+	dist := make([]float64, rows*m)
+	for i := i0; i <= i1; i++ {
+		for j := 0; j < m; j++ {
+			dist[(i-i0)*m+j] = grid.Distance(c.Lat, c.Lon, g.Lat[i], g.Lon[j])
+		}
+	}
+	rEye := 0.0
+	seed := -1
+	if c.MaxWindK >= 0 {
+		si, sj := g.RowCol(c.MaxWindK)
+		if si >= i0 && si <= i1 {
+			rEye = math.Min(dist[(si-i0)*m+sj], maxR)
+			if w := wind[c.MaxWindK]; w >= thr && dist[(si-i0)*m+sj] <= maxR {
+				seed = (si-i0)*m + sj
+			}
+		}
+	}
+	in := make([]bool, rows*m)
+	count := 0
+	mark := func(l int) {
+		if !in[l] {
+			in[l] = true
+			out[(l/m+i0)*m+l%m] = true
+			count++
+		}
+	}
+	for l, d := range dist {
+		if d <= rEye {
+			mark(l)
+		}
+	}
+	if seed >= 0 {
+		seen := make([]bool, rows*m)
+		stack := []int{seed}
+		seen[seed] = true
+		for len(stack) > 0 {
+			l := stack[len(stack)-1]
+			stack = stack[:len(stack)-1]
+			mark(l)
+			li, lj := l/m, l%m
+			for di := -1; di <= 1; di++ {
+				ni := li + di
+				if ni < 0 || ni >= rows {
+					continue
+				}
+				for dj := -1; dj <= 1; dj++ {
+					nj := lj + dj
+					if g.Periodic() {
+						nj = (nj + m) % m
+					} else if nj < 0 || nj >= m {
+						continue
+					}
+					q := ni*m + nj
+					if seen[q] {
+						continue
+					}
+					seen[q] = true
+					if dist[q] <= maxR && wind[(ni+i0)*m+nj] >= thr {
+						stack = append(stack, q)
+					}
+				}
+			}
+		}
+	}
+	return count
+}
