@@ -10,8 +10,8 @@ import (
 
 // Class values of class_mask (the shared mask.nc format).
 const (
-	Background      byte = 0
-	TropicalCyclone byte = 1
+	Background       byte = 0
+	TropicalCyclone  byte = 1
 	AtmosphericRiver byte = 2
 )
 
@@ -65,15 +65,15 @@ func (c *TCConfig) Has(name string) bool { return slices.Contains(c.Criteria, na
 
 // ARConfig holds the atmospheric-river settings of one label instance.
 type ARConfig struct {
-	Threshold       string  // ThresholdAbsolute or ThresholdRelative
-	IVTMin          float64 // kg m-1 s-1, absolute threshold
-	IVTFloor        float64 // kg m-1 s-1, floor under the relative threshold
-	IWVMin          float64 // kg m-2, threshold when only IWV is available
-	IVTTop          float64 // Pa, top of the column when IVT is integrated here
-	MinLength       float64 // m
-	MaxWidth        float64 // m
-	MinAspect       float64 // length / width
-	MinCentroidLat  float64 // degrees from the equator
+	Threshold      string  // ThresholdAbsolute or ThresholdRelative
+	IVTMin         float64 // kg m-1 s-1, absolute threshold
+	IVTFloor       float64 // kg m-1 s-1, floor under the relative threshold
+	IWVMin         float64 // kg m-2, threshold when only IWV is available
+	IVTTop         float64 // Pa, top of the column when IVT is integrated here
+	MinLength      float64 // m
+	MaxWidth       float64 // m
+	MinAspect      float64 // length / width
+	MinCentroidLat float64 // degrees from the equator
 }
 
 // Config is the resolved configuration of one label instance.
