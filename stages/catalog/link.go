@@ -3,45 +3,42 @@ package catalog
 import (
 	"fmt"
 	"sort"
+
+	"github.com/squall-climate/squall/stages/grid"
 )
 
-// Object is one connected region of one class at one time step, as found
-// by component labelling. Label images give, for every cell, the index of
-// the object holding it in the step's []Object, or -1.
-type Object struct {
-	Class int     // mask class value (1 tropical cyclone, 2 atmospheric river)
-	Area  float64 // m2
-}
-
-// Linker joins the objects of successive time steps into events.
+// Linker joins the connected objects of one class in successive time steps
+// into events. Use one Linker per class: objects of different classes are
+// never the same event.
 //
-// Rule (documented in doc.go): two objects of the same class at steps t-1
-// and t are candidates for the same event when they share at least one
-// cell; their overlap is the area of the shared cells. Candidate pairs are
-// taken greedily in order of decreasing overlap (ties: lower object index
-// at t-1, then at t), each object used at most once, so an event has
+// Rule (documented in doc.go): two objects at steps t-1 and t are
+// candidates for the same event when they share at least one cell; their
+// overlap is the area of the shared cells. Candidate pairs are taken
+// greedily in order of decreasing overlap (ties: lower label at t-1, then
+// lower label at t), each object used at most once, so an event has
 // exactly one object per step. An object at t left without a partner
 // starts a new event; if it overlapped an object at t-1 (a split) the new
 // event records SplitFrom = the event it overlapped most. An object at t-1
 // left without a partner ends its event; if it overlapped an object at t
 // (a merge) its event records MergedInto = the event that object joined.
-// The larger piece by overlap therefore keeps the identity, which makes
-// ids stable under small changes in the mask.
+// The larger piece by overlap keeps the identity, so ids stay stable under
+// small changes of the mask.
+//
+// Cost: one look-up per object pixel per step plus a sort of the
+// overlapping pairs, which are few: linear in object pixels.
 type Linker struct {
 	cellArea  []float64
-	prevLabel []int32
-	prevObjs  []Object
-	prevEvent []int // event index per previous object
+	prev      *grid.Labelling
+	prevEvent []int // event index per previous object (label-1)
 	events    []*Link
 }
 
-// Link is the skeleton of one event: its class, first step, the object
-// index at each step it lives, and its relations to other events (0 when
-// none; otherwise the event index plus one).
+// Link is the skeleton of one event: its first step, the object label at
+// each step it lives, and its relations to other events (0 when none;
+// otherwise the event index plus one).
 type Link struct {
-	Class      int
-	First      int   // first step (as numbered by Step calls)
-	Objects    []int // object index at steps First, First+1, ...
+	First      int     // first step (as numbered by Step calls)
+	Labels     []int32 // object label at steps First, First+1, ...
 	SplitFrom  int
 	MergedInto int
 }
@@ -52,46 +49,54 @@ func NewLinker(cellArea []float64) *Linker {
 }
 
 // Events returns every event found so far, in order of creation (by first
-// step, then by object index at that step).
+// step, then by label at that step).
 func (l *Linker) Events() []*Link { return l.events }
 
 // Break ends every open event, for a gap in time (missing steps): events
 // are never linked across a gap.
 func (l *Linker) Break() {
-	l.prevLabel = nil
-	l.prevObjs = nil
+	l.prev = nil
 	l.prevEvent = nil
 }
 
-// Step adds the objects of time step number step (the caller's global
-// numbering; steps must come in increasing order, and a step that does not
-// follow the previous one directly must be preceded by Break). label holds, per cell, the
-// object index or -1; it is kept until the next call, so the caller must
-// not reuse the slice for the following step. Step returns the event index
-// of every object.
-func (l *Linker) Step(step int, label []int32, objs []Object) ([]int, error) {
-	if len(label) != len(l.cellArea) {
-		return nil, fmt.Errorf("catalog: label image has %d cells, grid has %d", len(label), len(l.cellArea))
+// Step adds the objects of time step number step (the caller's numbering;
+// steps come in increasing order, and a step that does not follow the
+// previous one directly must be preceded by Break). lab is the step's
+// labelling; it is kept until the next call. Step returns the event index
+// of every object, indexed by label-1.
+func (l *Linker) Step(step int, lab *grid.Labelling) ([]int, error) {
+	if len(lab.Labels) != len(l.cellArea) {
+		return nil, fmt.Errorf("catalog: label image has %d cells, grid has %d", len(lab.Labels), len(l.cellArea))
 	}
 	type pair struct {
-		p, c    int
+		p, c    int32
 		overlap float64
 	}
 	var pairs []pair
-	if l.prevLabel != nil {
-		// Overlap per (previous object, current object), accumulated in a
-		// map keyed by the pair, then sorted: deterministic whatever the
-		// map order.
-		ov := map[[2]int]float64{}
-		for k, c := range label {
-			if c < 0 {
-				continue
+	if l.prev != nil {
+		// Overlap per (previous, current) pair. Pixels of one object come
+		// in ascending order, so runs of the same pair are common; the map
+		// is read in sorted order afterwards, so the result is
+		// deterministic whatever the map's iteration order.
+		ov := map[[2]int32]float64{}
+		prevLab := l.prev.Labels
+		for ci := range lab.Components {
+			c := int32(ci + 1)
+			var runP int32
+			var runA float64
+			for _, k := range lab.Pixels(c) {
+				p := prevLab[k]
+				if p != runP {
+					if runP > 0 {
+						ov[[2]int32{runP, c}] += runA
+					}
+					runP, runA = p, 0
+				}
+				runA += l.cellArea[k]
 			}
-			p := l.prevLabel[k]
-			if p < 0 || l.prevObjs[p].Class != objs[c].Class {
-				continue
+			if runP > 0 {
+				ov[[2]int32{runP, c}] += runA
 			}
-			ov[[2]int{int(p), int(c)}] += l.cellArea[k]
 		}
 		for k, v := range ov {
 			pairs = append(pairs, pair{k[0], k[1], v})
@@ -107,52 +112,48 @@ func (l *Linker) Step(step int, label []int32, objs []Object) ([]int, error) {
 			return a.c < b.c
 		})
 	}
-	evOf := make([]int, len(objs))
+	nCur := len(lab.Components)
+	nPrev := len(l.prevEvent)
+	evOf := make([]int, nCur)
+	bestPrev := make([]int32, nCur) // previous label overlapping most, 0 none
 	for i := range evOf {
 		evOf[i] = -1
 	}
-	prevUsed := make([]bool, len(l.prevObjs))
-	bestPrev := make([]int, len(objs)) // previous object overlapping most, -1
-	bestCur := make([]int, len(l.prevObjs))
-	for i := range bestPrev {
-		bestPrev[i] = -1
-	}
-	for i := range bestCur {
-		bestCur[i] = -1
-	}
+	prevUsed := make([]bool, nPrev)
+	bestCur := make([]int32, nPrev)
 	for _, pr := range pairs {
-		if bestPrev[pr.c] < 0 {
-			bestPrev[pr.c] = pr.p
+		p, c := pr.p-1, pr.c-1
+		if bestPrev[c] == 0 {
+			bestPrev[c] = pr.p
 		}
-		if bestCur[pr.p] < 0 {
-			bestCur[pr.p] = pr.c
+		if bestCur[p] == 0 {
+			bestCur[p] = pr.c
 		}
-		if prevUsed[pr.p] || evOf[pr.c] >= 0 {
+		if prevUsed[p] || evOf[c] >= 0 {
 			continue
 		}
-		prevUsed[pr.p] = true
-		e := l.prevEvent[pr.p]
-		evOf[pr.c] = e
-		l.events[e].Objects = append(l.events[e].Objects, pr.c)
+		prevUsed[p] = true
+		e := l.prevEvent[p]
+		evOf[c] = e
+		l.events[e].Labels = append(l.events[e].Labels, pr.c)
 	}
-	for c := range objs {
+	for c := range nCur {
 		if evOf[c] >= 0 {
 			continue
 		}
-		ev := &Link{Class: objs[c].Class, First: step, Objects: []int{c}}
-		if p := bestPrev[c]; p >= 0 {
-			ev.SplitFrom = l.prevEvent[p] + 1
+		ev := &Link{First: step, Labels: []int32{int32(c + 1)}}
+		if p := bestPrev[c]; p > 0 {
+			ev.SplitFrom = l.prevEvent[p-1] + 1
 		}
 		l.events = append(l.events, ev)
 		evOf[c] = len(l.events) - 1
 	}
-	for p := range l.prevObjs {
-		if !prevUsed[p] && bestCur[p] >= 0 {
-			l.events[l.prevEvent[p]].MergedInto = evOf[bestCur[p]] + 1
+	for p := range nPrev {
+		if !prevUsed[p] && bestCur[p] > 0 {
+			l.events[l.prevEvent[p]].MergedInto = evOf[bestCur[p]-1] + 1
 		}
 	}
-	l.prevLabel = label
-	l.prevObjs = objs
+	l.prev = lab
 	l.prevEvent = evOf
 	return evOf, nil
 }
