@@ -1,0 +1,325 @@
+package pipeline
+
+import (
+	"fmt"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/dominikbraun/graph"
+)
+
+// Instance is one unit of work: a stage applied to one (scenario, block,
+// member) slice of its inputs. Instances are created stage by stage in
+// dependency order, so a plan's slice of instances is already a valid
+// execution order.
+type Instance struct {
+	Stage    *Stage
+	Scenario string
+	Block    string
+	Member   string
+	Settings Values
+	// Upstream are the instances this one reads, in a stable order.
+	Upstream []*Instance
+	// Files are raw inputs: scenario blocks and file-pattern settings.
+	Files []Input
+
+	index      int
+	dependents []*Instance
+}
+
+// ID is the stable identity of an instance across runs.
+func (in *Instance) ID() string {
+	return in.Stage.Name + "/" + in.Scenario + "/" + in.Block + "/" + in.Member
+}
+
+// Label is the identity for people: stage[scenario/block/member].
+func (in *Instance) Label() string {
+	parts := []string{}
+	for _, p := range []string{in.Scenario, in.Block, in.Member} {
+		if p != "" {
+			parts = append(parts, p)
+		}
+	}
+	if len(parts) == 0 {
+		return in.Stage.Name
+	}
+	return in.Stage.Name + "[" + strings.Join(parts, "/") + "]"
+}
+
+type coord struct{ sc, blk, mem string }
+
+// compatible: every dimension is either unset on one side or equal.
+func compatible(a, b coord) bool {
+	return (a.sc == "" || b.sc == "" || a.sc == b.sc) &&
+		(a.blk == "" || b.blk == "" || a.blk == b.blk) &&
+		(a.mem == "" || b.mem == "" || a.mem == b.mem)
+}
+
+// covers: a is b or coarser than b.
+func covers(a, b coord) bool {
+	return (a.sc == "" || a.sc == b.sc) && (a.blk == "" || a.blk == b.blk) && (a.mem == "" || a.mem == b.mem)
+}
+
+type source struct {
+	c        coord
+	instance *Instance // nil for raw files
+	raw      *Input
+}
+
+// stageOrder returns stages so that every stage follows its inputs; the
+// stage graph is small, so the graph library's sort is fine here.
+func (c *Campaign) stageOrder() ([]*Stage, error) {
+	g := graph.New(graph.StringHash, graph.Directed(), graph.Acyclic())
+	for _, st := range c.Stages {
+		_ = g.AddVertex(st.Name)
+	}
+	for _, st := range c.Stages {
+		for _, in := range st.Inputs {
+			if c.StageByName(in) != nil {
+				_ = g.AddEdge(in, st.Name)
+			}
+		}
+	}
+	pos := map[string]int{}
+	for i, st := range c.Stages {
+		pos[st.Name] = i
+	}
+	names, err := graph.StableTopologicalSort(g, func(a, b string) bool { return pos[a] < pos[b] })
+	if err != nil {
+		return nil, err
+	}
+	out := make([]*Stage, len(names))
+	for i, n := range names {
+		out[i] = c.StageByName(n)
+	}
+	return out, nil
+}
+
+// Expand turns the stage graph into the instance graph.
+func (c *Campaign) Expand() ([]*Instance, error) {
+	order, err := c.stageOrder()
+	if err != nil {
+		return nil, err
+	}
+	byStage := map[string][]*Instance{}
+	var all []*Instance
+	for _, st := range order {
+		var srcs [][]source
+		for _, in := range st.Inputs {
+			var s []source
+			if sc := c.ScenarioByName(in); sc != nil {
+				for _, b := range sc.Blocks() {
+					s = append(s, source{c: coord{sc.Name, b, ""}, raw: &Input{From: sc.Name, Kind: "scenario", Scenario: sc.Name, Block: b, Files: sc.Files[b]}})
+				}
+			} else {
+				for _, up := range byStage[in] {
+					s = append(s, source{c: coord{up.Scenario, up.Block, up.Member}, instance: up})
+				}
+			}
+			if len(s) == 0 {
+				return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has no instances", c.File, st.Name, in)}
+			}
+			srcs = append(srcs, s)
+		}
+		targets := targetsFor(st.Kind.Fan(), srcs)
+		members := sweepMembers(st)
+		for _, t := range targets {
+			var ups []*Instance
+			var files []Input
+			for i, s := range srcs {
+				n := 0
+				for _, x := range s {
+					if !compatible(x.c, t) {
+						continue
+					}
+					n++
+					if x.instance != nil {
+						ups = append(ups, x.instance)
+					} else {
+						files = append(files, *x.raw)
+					}
+				}
+				if n == 0 {
+					return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has nothing for %s", c.File, st.Name, st.Inputs[i], describeCoord(t))}
+				}
+			}
+			for _, m := range members {
+				inst := &Instance{Stage: st, Scenario: t.sc, Block: t.blk, Member: joinMember(t.mem, m.name), Settings: m.values, Upstream: ups}
+				inst.Files = append(inst.Files, files...)
+				pf, err := c.patternFiles(inst)
+				if err != nil {
+					return nil, err
+				}
+				inst.Files = append(inst.Files, pf...)
+				inst.index = len(all)
+				for _, u := range ups {
+					u.dependents = append(u.dependents, inst)
+				}
+				all = append(all, inst)
+				byStage[st.Name] = append(byStage[st.Name], inst)
+			}
+		}
+	}
+	return all, nil
+}
+
+func describeCoord(t coord) string {
+	var parts []string
+	if t.sc != "" {
+		parts = append(parts, "scenario "+t.sc)
+	}
+	if t.blk != "" {
+		parts = append(parts, "block "+t.blk)
+	}
+	if t.mem != "" {
+		parts = append(parts, "member "+t.mem)
+	}
+	if len(parts) == 0 {
+		return "the campaign"
+	}
+	return strings.Join(parts, ", ")
+}
+
+func joinMember(a, b string) string {
+	switch {
+	case a == "":
+		return b
+	case b == "":
+		return a
+	}
+	return a + "," + b
+}
+
+// targetsFor picks the instance coordinates of a stage from its inputs.
+func targetsFor(fan Fan, srcs [][]source) []coord {
+	seen := map[coord]bool{}
+	var u []coord
+	for _, s := range srcs {
+		for _, x := range s {
+			c := x.c
+			switch fan {
+			case FanMembers:
+				c.mem = ""
+			case FanScenario:
+				c.blk, c.mem = "", ""
+			case FanCampaign:
+				c = coord{}
+			}
+			if !seen[c] {
+				seen[c] = true
+				u = append(u, c)
+			}
+		}
+	}
+	// Keep the finest coordinates: coarser ones are broadcast into them.
+	var out []coord
+	for _, a := range u {
+		finest := true
+		for _, b := range u {
+			if a != b && covers(a, b) {
+				finest = false
+				break
+			}
+		}
+		if finest {
+			out = append(out, a)
+		}
+	}
+	sort.Slice(out, func(i, j int) bool {
+		a, b := out[i], out[j]
+		if a.sc != b.sc {
+			return a.sc < b.sc
+		}
+		if a.blk != b.blk {
+			return a.blk < b.blk
+		}
+		return a.mem < b.mem
+	})
+	return out
+}
+
+type member struct {
+	name   string
+	values Values
+}
+
+// sweepMembers expands list-valued sweep settings into the cartesian
+// product of their values, one member each.
+func sweepMembers(st *Stage) []member {
+	if len(st.Sweeps) == 0 {
+		return []member{{"", st.Settings}}
+	}
+	ms := []member{{"", Values{}}}
+	for k, v := range st.Settings {
+		ms[0].values[k] = v
+	}
+	for _, name := range st.Sweeps {
+		list := st.Settings[name].([]any)
+		var next []member
+		for _, m := range ms {
+			for _, x := range list {
+				v := Values{}
+				for k, y := range m.values {
+					v[k] = y
+				}
+				v[name] = x
+				next = append(next, member{joinMember(m.name, name+"="+formatValue(x)), v})
+			}
+		}
+		ms = next
+	}
+	return ms
+}
+
+func formatValue(x any) string {
+	switch v := x.(type) {
+	case float64:
+		return strconv.FormatFloat(v, 'g', -1, 64)
+	case int:
+		return strconv.Itoa(v)
+	}
+	return fmt.Sprint(x)
+}
+
+// patternFiles resolves the file-pattern settings of an instance.
+func (c *Campaign) patternFiles(inst *Instance) ([]Input, error) {
+	var out []Input
+	for _, s := range inst.Stage.Kind.Settings() {
+		if s.Type != TypeFiles {
+			continue
+		}
+		pat, _ := inst.Settings[s.Name].(string)
+		if pat == "" {
+			continue
+		}
+		type sb struct{ sc, blk string }
+		var pairs []sb
+		if strings.Contains(pat, "{scenario}") || strings.Contains(pat, "{block}") {
+			seen := map[sb]bool{}
+			for _, sc := range c.Scenarios {
+				for _, b := range sc.Blocks() {
+					p := sb{sc.Name, b}
+					if seen[p] || !compatible(coord{sc.Name, b, ""}, coord{inst.Scenario, inst.Block, ""}) {
+						continue
+					}
+					seen[p] = true
+					pairs = append(pairs, p)
+				}
+			}
+		} else {
+			pairs = []sb{{"", ""}}
+		}
+		for _, p := range pairs {
+			g := strings.NewReplacer("{scenario}", p.sc, "{block}", p.blk).Replace(pat)
+			matches, err := filepath.Glob(c.abs(g))
+			if err != nil || len(matches) == 0 {
+				return nil, &InvalidError{fmt.Errorf("%s:%d: stages.%s.settings.%s: pattern %q matches no file (paths are relative to %s)", c.File, inst.Stage.Line, inst.Stage.Name, s.Name, g, c.Info.Dir)}
+			}
+			sort.Strings(matches)
+			out = append(out, Input{From: s.Name, Kind: "file", Scenario: p.sc, Block: p.blk, Files: matches})
+		}
+	}
+	return out, nil
+}

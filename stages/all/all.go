@@ -1,0 +1,12 @@
+// Package all lists every stage kind this binary knows, in one place, so
+// that adding a kind is one visible line rather than an init() side effect.
+package all
+
+import (
+	"github.com/squall-climate/squall/pipeline"
+)
+
+// Registry returns the stage kinds of squall.
+func Registry() *pipeline.Registry {
+	return pipeline.NewRegistry()
+}
