@@ -196,14 +196,14 @@ func conv[T number](xs []T) []float64 {
 // CF conventions (section 2.5.1 and 8.1) and the netCDF user guide's
 // attribute conventions.
 type packing struct {
-	missing          []float64 // stored values that mean "no data"
-	lo, hi           float64   // valid range of stored values (inclusive)
-	scale, offset    float64
-	scaled           bool
-	anyMask          bool
-	missing32        []float32
-	lo32, hi32       float32
-	float32Unscaled  bool // a float variable read as float32 needs no conversion
+	missing         []float64 // stored values that mean "no data"
+	lo, hi          float64   // valid range of stored values (inclusive)
+	scale, offset   float64
+	scaled          bool
+	anyMask         bool
+	missing32       []float32
+	lo32, hi32      float32
+	float32Unscaled bool // a float variable read as float32 needs no conversion
 }
 
 func (v *Var) packing() *packing {
