@@ -1,6 +1,8 @@
-// Package stream holds one-pass, mergeable statistics for the data stages:
-// Moments (weighted count, mean, variance, minimum, maximum) and Digest
-// (a fixed-memory quantile sketch).
+// Package stream holds what the data stages need to work through a block
+// one time step at a time: one-pass, mergeable statistics — Moments
+// (weighted count, mean, variance, minimum, maximum) and Digest (a
+// fixed-memory quantile sketch) — and Steps, a read-compute-write loop that
+// keeps netCDF calls on one goroutine while others compute.
 //
 // Conventions. Accumulators skip NaN, so callers turn fill values into NaN
 // before adding and missing data never leaks into a statistic. Weights are
@@ -23,6 +25,7 @@
 // 200 -> about 30 kB, whatever the stream length. Adding n values costs
 // O(n log(8 delta)) for the buffer sorts.
 //
-// Nothing here touches files; the package is safe to use from compute
-// goroutines (one accumulator per goroutine, merged afterwards).
+// Nothing here touches files. Accumulators are not locked: use one per
+// goroutine and merge afterwards. Steps calls read and write only on the
+// caller's goroutine, so they may call libnetcdf.
 package stream
