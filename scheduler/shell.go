@@ -12,7 +12,7 @@ var plainRE = regexp.MustCompile(`^[A-Za-z0-9_./:=@%+,-]+$`)
 // Quote returns s as one bash word that expands to exactly s: bare when
 // it holds only characters without meaning to the shell, otherwise in
 // single quotes (inside which bash interprets nothing), each ' written as
-// '\''. Newlines survive as themselves.
+// '\”. Newlines survive as themselves.
 func Quote(s string) string {
 	if s != "" && plainRE.MatchString(s) {
 		return s

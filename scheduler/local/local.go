@@ -264,7 +264,7 @@ func (e *Engine) Cancel(ctx context.Context, ids []string) error {
 			continue // not started yet: the runner sees the marker
 		}
 		if pid, err := strconv.Atoi(strings.TrimSpace(string(data))); err == nil && pid > 1 {
-			if st, _ := e.States(ctx, []string{id}); st[id].State == scheduler.Running {
+			if st, _ := e.States(ctx, []string{id}); !st[id].State.Done() {
 				_ = syscall.Kill(-pid, syscall.SIGTERM)
 			}
 		}
