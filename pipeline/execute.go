@@ -44,10 +44,10 @@ type Event struct {
 
 // RunOptions tune Execute.
 type RunOptions struct {
-	Jobs      int  // parallel instances; <= 0 means 1
-	FailFast  bool // stop starting new instances after the first failure
-	Tool      string
-	OnEvent   func(Event)
+	Jobs     int  // parallel instances; <= 0 means 1
+	FailFast bool // stop starting new instances after the first failure
+	Tool     string
+	OnEvent  func(Event)
 	// ChildCommand builds the command that runs one instance from its job
 	// file. The CLI re-executes its own binary; tests re-execute the test
 	// binary.

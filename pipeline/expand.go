@@ -106,22 +106,34 @@ func (c *Campaign) Expand() ([]*Instance, error) {
 	byStage := map[string][]*Instance{}
 	var all []*Instance
 	for _, st := range order {
+		// Scenario inputs form one source together (each scenario covers
+		// its own blocks); each stage input is a source of its own that
+		// must cover every instance.
 		var srcs [][]source
+		var srcNames []string
+		var raw []source
+		var rawNames []string
 		for _, in := range st.Inputs {
-			var s []source
 			if sc := c.ScenarioByName(in); sc != nil {
 				for _, b := range sc.Blocks() {
-					s = append(s, source{c: coord{sc.Name, b, ""}, raw: &Input{From: sc.Name, Kind: "scenario", Scenario: sc.Name, Block: b, Files: sc.Files[b]}})
+					raw = append(raw, source{c: coord{sc.Name, b, ""}, raw: &Input{From: sc.Name, Kind: "scenario", Scenario: sc.Name, Block: b, Files: sc.Files[b]}})
 				}
-			} else {
-				for _, up := range byStage[in] {
-					s = append(s, source{c: coord{up.Scenario, up.Block, up.Member}, instance: up})
-				}
+				rawNames = append(rawNames, in)
+				continue
+			}
+			var s []source
+			for _, up := range byStage[in] {
+				s = append(s, source{c: coord{up.Scenario, up.Block, up.Member}, instance: up})
 			}
 			if len(s) == 0 {
 				return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has no instances", c.File, st.Name, in)}
 			}
 			srcs = append(srcs, s)
+			srcNames = append(srcNames, in)
+		}
+		if len(raw) > 0 {
+			srcs = append(srcs, raw)
+			srcNames = append(srcNames, strings.Join(rawNames, ", "))
 		}
 		targets := targetsFor(st.Kind.Fan(), srcs)
 		members := sweepMembers(st)
@@ -142,7 +154,7 @@ func (c *Campaign) Expand() ([]*Instance, error) {
 					}
 				}
 				if n == 0 {
-					return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has nothing for %s", c.File, st.Name, st.Inputs[i], describeCoord(t))}
+					return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has nothing for %s", c.File, st.Name, srcNames[i], describeCoord(t))}
 				}
 			}
 			for _, m := range members {
