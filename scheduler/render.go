@@ -178,9 +178,9 @@ func RenderScript(p *Profile, d Dialect, spec *JobSpec, shape Shape) []byte {
 		w("")
 		w("# The engine (or our timer) sends %s %s before the walltime: pass", sig, p.Warning.Lead)
 		w("# it on so the command can write a checkpoint and stop cleanly.")
-		w("squall_warned=0")
+		w("export SQUALL_WARNED=0")
 		w("squall_warn() {")
-		w("\tsquall_warned=1")
+		w("\tSQUALL_WARNED=1")
 		w("\techo \"squall: warning signal %s received; asking the command to checkpoint\" >&2", sig)
 		w("\tif [[ -n $squall_child ]]; then kill -s %s \"$squall_child\" 2>/dev/null || true; fi", sig)
 		w("}")
@@ -197,7 +197,7 @@ func RenderScript(p *Profile, d Dialect, spec *JobSpec, shape Shape) []byte {
 	if len(spec.Argv) > 0 {
 		w("squall_run %s", QuoteAll(spec.Argv))
 		if spec.Warning {
-			w("if ((squall_warned)); then echo \"squall: the command stopped after the warning signal\" >&2; fi")
+			w("if ((SQUALL_WARNED)); then echo \"squall: the command stopped after the warning signal\" >&2; fi")
 		}
 	} else {
 		b.WriteString(strings.TrimRight(spec.Body, "\n"))

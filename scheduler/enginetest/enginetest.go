@@ -249,3 +249,75 @@ func testHostile(t *testing.T, h Harness) {
 		t.Errorf("hostile values ran commands: %v", matches)
 	}
 }
+
+// GoldenSpecs are the jobs rendered into each engine's golden files: the
+// representative Specs plus a multi-node accelerator job with a warning.
+func GoldenSpecs() []scheduler.JobSpec {
+	specs := Specs("/scratch/campaign/jobs/run-1")
+	return append(specs, scheduler.JobSpec{
+		Name: "train-seg1", Nodes: 4, RanksPerNode: 6, CoresPerRank: 7, AcceleratorsPerNode: 6,
+		Walltime: 6 * time.Hour, Warning: true, Exclusive: true, Log: "logs/train-{job}.out",
+		After: nil, Body: "squall_run srun --ntasks=24 trainer --resume\n",
+	})
+}
+
+// Golden renders GoldenSpecs with e and compares each script with
+// dir/NAME.ext, rewriting the files when update is set. Every golden must
+// also pass shellcheck. It returns the rendered scripts by name.
+func Golden(t *testing.T, e scheduler.Engine, dir, ext string, update bool) map[string][]byte {
+	t.Helper()
+	out := map[string][]byte{}
+	for _, spec := range GoldenSpecs() {
+		spec := spec
+		got, err := e.Render(&spec)
+		if err != nil {
+			t.Fatalf("Render %s: %v", spec.Name, err)
+		}
+		out[spec.Name] = got
+		path := filepath.Join(dir, spec.Name+ext)
+		if update {
+			if err := os.MkdirAll(dir, 0o755); err != nil {
+				t.Fatal(err)
+			}
+			if err := os.WriteFile(path, got, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
+		want, err := os.ReadFile(path)
+		if err != nil {
+			t.Fatalf("%v (run the test with -update to create it)", err)
+		}
+		if string(got) != string(want) {
+			t.Errorf("%s differs from the golden file (run with -update if the change is intended)\n--- got ---\n%s", path, got)
+		}
+	}
+	files, _ := filepath.Glob(filepath.Join(dir, "*"+ext))
+	for _, f := range files {
+		data, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ShellCheck(t, f, data)
+	}
+	return out
+}
+
+// GoldenProfile is a rich profile for golden files: setup lines, extra
+// directives, a partition and an account, an accelerator node shape.
+func GoldenProfile(engine string, directives ...string) *scheduler.Profile {
+	p := scheduler.Default()
+	p.Engine = engine
+	p.Partition = "gpu"
+	p.Account = "clim042"
+	p.Walltime = scheduler.Duration(12 * time.Hour)
+	p.Node = scheduler.Node{Cores: 42, Accelerators: 6, Memory: 512e9, AcceleratorPeakTFLOPS: 125,
+		Scratch: scheduler.Scratch{Path: "/mnt/local", Size: 800e9}}
+	p.Setup = []string{"module load cuda/12.2", ". /opt/venvs/squall/bin/activate"}
+	p.Warning = scheduler.Warning{Signal: "USR1", Lead: scheduler.Duration(10 * time.Minute)}
+	p.Directives = directives
+	if err := p.Validate(); err != nil {
+		panic(err)
+	}
+	return p
+}
