@@ -20,7 +20,7 @@ const (
 	QV        = "northward_wind"
 	QWind     = "wind_speed"
 	QQ        = "specific_humidity"
-	QVort     = "relative_vorticity"                  // derived name
+	QVort     = "relative_vorticity"                   // derived name
 	QVortCF   = "atmosphere_upward_relative_vorticity" // CF standard name
 	QIVT      = "ivt"
 	QIVTU     = "ivt_u"

@@ -33,13 +33,13 @@ type vorticitySrc struct {
 // tcPlan names the channels the tropical-cyclone detection reads; nil
 // entries are not needed or not available for optional diagnostics.
 type tcPlan struct {
-	slp                *Channel
-	vort               *vorticitySrc
-	wind10             *speed
-	t850, t700         *Channel
-	t500, t300         *Channel
-	wind850, wind300   *speed
-	needWind10ForMask  bool
+	slp               *Channel
+	vort              *vorticitySrc
+	wind10            *speed
+	t850, t700        *Channel
+	t500, t300        *Channel
+	wind850, wind300  *speed
+	needWind10ForMask bool
 }
 
 // arSource says how the AR quantity is obtained.
