@@ -34,6 +34,8 @@ const (
 // event is what trends needs of one catalog event.
 type event struct {
 	id        string
+	scenario  string // from the row; "" when the catalog has no such column
+	member    string
 	class     string
 	year      int
 	days      float64 // duration in days (NaN when unknown)
@@ -58,8 +60,10 @@ var (
 	colLfLat     = []string{"landfall_lat", "landfall_latitude"}
 	colLfLon     = []string{"landfall_lon", "landfall_longitude"}
 	colRegions   = []string{"regions", "regions_touched"}
+	colScenario  = []string{"scenario"}
+	colMember    = []string{"member"}
 	colTCInt     = []string{"max_wind_ms", "max_wind", "max_wind_speed", "vmax"}
-	colARInt     = []string{"max_ivt", "ivt_max", "max_ivt_kg_m_s"}
+	colARInt     = []string{"max_ivt_kg_m_s", "max_ivt", "ivt_max"}
 	colPtID      = []string{"event_id", "id", "event"}
 	colPtLat     = []string{"lat", "latitude", "centroid_lat"}
 	colPtLon     = []string{"lon", "longitude", "centroid_lon"}
@@ -104,21 +108,25 @@ func readCatalog(files []string) ([]*event, bool, error) {
 	iDays, iHours := t.col(colDurDays...), t.col(colDurHours...)
 	iLand, iLfLat, iLfLon := t.col(colLandfall...), t.col(colLfLat...), t.col(colLfLon...)
 	iReg := t.col(colRegions...)
+	iScn, iMem := t.col(colScenario...), t.col(colMember...)
 	intCols := map[string]int{}
 	for c, names := range intensityCol {
 		intCols[c] = t.col(names...)
 	}
 	var evs []*event
 	byID := map[string]*event{}
+	bareID := map[string][]*event{}
 	for k, rec := range t.rows {
 		line := k + 2
 		e := &event{id: cell(rec, iID), class: canonicalClass(cell(rec, iClass)),
+			scenario: cell(rec, iScn), member: cell(rec, iMem),
 			days: math.NaN(), lfLat: math.NaN(), lfLon: math.NaN(), intensity: math.NaN()}
 		if e.id == "" {
 			return nil, false, fmt.Errorf("%s line %d: empty event id", evPath, line)
 		}
-		if _, dup := byID[e.id]; dup {
-			return nil, false, fmt.Errorf("%s line %d: event id %q appears twice", evPath, line, e.id)
+		key := e.scenario + "\x00" + e.member + "\x00" + e.id
+		if _, dup := byID[key]; dup {
+			return nil, false, fmt.Errorf("%s line %d: event id %q appears twice for scenario %q member %q", evPath, line, e.id, e.scenario, e.member)
 		}
 		if iYear >= 0 && cell(rec, iYear) != "" {
 			y, err := strconv.Atoi(cell(rec, iYear))
@@ -189,7 +197,8 @@ func readCatalog(files []string) ([]*event, bool, error) {
 			e.regions = splitList(cell(rec, iReg))
 		}
 		evs = append(evs, e)
-		byID[e.id] = e
+		byID[key] = e
+		bareID[e.id] = append(bareID[e.id], e)
 	}
 	if ptPath == "" {
 		return evs, false, nil
@@ -210,9 +219,15 @@ func readCatalog(files []string) ([]*event, bool, error) {
 	if err != nil {
 		return nil, false, err
 	}
+	jScn, jMem := p.col(colScenario...), p.col(colMember...)
 	for k, rec := range p.rows {
 		line := k + 2
-		e := byID[cell(rec, jID)]
+		e := byID[cell(rec, jScn)+"\x00"+cell(rec, jMem)+"\x00"+cell(rec, jID)]
+		if e == nil && len(bareID[cell(rec, jID)]) == 1 {
+			// The points file names no scenario or member: the id alone
+			// must then be unique.
+			e = bareID[cell(rec, jID)][0]
+		}
 		if e == nil {
 			return nil, false, fmt.Errorf("%s line %d: event %q is not in %s", ptPath, line, cell(rec, jID), EventsFile)
 		}

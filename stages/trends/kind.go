@@ -196,14 +196,15 @@ func (Kind) Run(ctx context.Context, job *pipeline.Job) error {
 // input holding events.csv) and masks (any input holding mask.nc).
 func gatherSamples(job *pipeline.Job) ([]*sample, error) {
 	byKey := map[[2]string]*sample{}
-	get := func(in pipeline.Input) (*sample, error) {
-		if in.Scenario == "" {
-			return nil, fmt.Errorf("input from %s (%s) has no scenario: trends compares scenarios, so connect it to per-scenario or per-block catalog instances", in.From, in.Dir)
+	get := func(scn, member string, in pipeline.Input) (*sample, error) {
+		if scn == "" {
+			return nil, fmt.Errorf("input from %s (%s) has no scenario and its rows name none: trends compares scenarios, "+
+				"so connect it to per-scenario or per-block catalog instances", in.From, in.Dir)
 		}
-		key := [2]string{in.Scenario, in.Member}
+		key := [2]string{scn, member}
 		s := byKey[key]
 		if s == nil {
-			s = &sample{Scenario: in.Scenario, Member: in.Member, years: map[int]bool{}}
+			s = &sample{Scenario: scn, Member: member, years: map[int]bool{}}
 			byKey[key] = s
 		}
 		return s, nil
@@ -220,14 +221,11 @@ func gatherSamples(job *pipeline.Job) ([]*sample, error) {
 				maskFile = true
 			}
 		}
-		if !evFile && !maskFile {
-			continue
-		}
-		s, err := get(in)
-		if err != nil {
-			return nil, err
-		}
 		if maskFile {
+			s, err := get(in.Scenario, in.Member, in)
+			if err != nil {
+				return nil, err
+			}
 			for _, f := range in.Files {
 				if filepath.Base(f) == MaskFile {
 					s.masks = append(s.masks, f)
@@ -242,16 +240,40 @@ func gatherSamples(job *pipeline.Job) ([]*sample, error) {
 		if err != nil {
 			return nil, err
 		}
-		s.events = append(s.events, evs...)
-		s.hasPoints = s.hasPoints || pts
-		if in.Block != "" {
-			y, err := strconv.Atoi(in.Block)
-			if err != nil {
-				return nil, fmt.Errorf("input from %s: block %q is not a year", in.From, in.Block)
+		// Rows name their scenario and member when the catalog holds
+		// several (a whole-campaign catalog, or every sweep member); the
+		// input's labels fill in what a row leaves empty.
+		touched := map[*sample]bool{}
+		for _, e := range evs {
+			scn, mem := e.scenario, e.member
+			if scn == "" {
+				scn = in.Scenario
 			}
-			s.years[y] = true
-		} else {
-			wholeScenario[[2]string{s.Scenario, s.Member}] = true
+			if mem == "" {
+				mem = in.Member
+			}
+			s, err := get(scn, mem, in)
+			if err != nil {
+				return nil, err
+			}
+			s.events = append(s.events, e)
+			touched[s] = true
+		}
+		if in.Scenario != "" {
+			s, _ := get(in.Scenario, in.Member, in)
+			touched[s] = true
+		}
+		for s := range touched {
+			s.hasPoints = s.hasPoints || pts
+			if in.Block != "" {
+				y, err := strconv.Atoi(in.Block)
+				if err != nil {
+					return nil, fmt.Errorf("input from %s: block %q is not a year", in.From, in.Block)
+				}
+				s.years[y] = true
+			} else {
+				wholeScenario[[2]string{s.Scenario, s.Member}] = true
+			}
 		}
 	}
 	if catalogs == 0 {

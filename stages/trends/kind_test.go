@@ -48,8 +48,11 @@ func writeCatalog(t *testing.T, dir, scenario string, evs []fakeEvent) []string 
 	}
 	var eb, pb bytes.Buffer
 	ew, pw := csv.NewWriter(&eb), csv.NewWriter(&pb)
-	ew.Write([]string{"class", "id", "scenario", "start", "end", "duration_hours", "max_wind_ms", "max_ivt", "landfall", "landfall_lat", "landfall_lon", "regions"})
-	pw.Write([]string{"event_id", "step", "time", "lat", "lon", "area_km2"})
+	// Column names as stages/catalog writes them (its doc.go), in a
+	// shuffled order with some left out: trends reads columns by name.
+	ew.Write([]string{"class", "event_id", "scenario", "member", "start", "end", "duration_hours", "max_wind_ms", "max_ivt_kg_m_s",
+		"landfall", "landfall_time", "landfall_lat", "landfall_lon", "landfall_regions", "regions"})
+	pw.Write([]string{"event_id", "scenario", "index", "time", "lat", "lon", "area_km2"})
 	for i, e := range evs {
 		id := fmt.Sprintf("%s-%04d", scenario, i)
 		wind, ivt := "", ""
@@ -63,10 +66,14 @@ func writeCatalog(t *testing.T, dir, scenario string, evs []fakeEvent) []string 
 			lfLat = strconv.FormatFloat(e.track[len(e.track)-1][0], 'g', -1, 64)
 			lfLon = strconv.FormatFloat(e.track[len(e.track)-1][1], 'g', -1, 64)
 		}
-		ew.Write([]string{e.class, id, scenario, e.start, e.start, strconv.FormatFloat(e.hours, 'g', -1, 64), wind, ivt,
-			strconv.FormatBool(e.landfall), lfLat, lfLon, ""})
+		lfTime := ""
+		if e.landfall {
+			lfTime = e.start
+		}
+		ew.Write([]string{e.class, id, scenario, "", e.start, e.start, strconv.FormatFloat(e.hours, 'g', -1, 64), wind, ivt,
+			strconv.FormatBool(e.landfall), lfTime, lfLat, lfLon, "", ""})
 		for k, p := range e.track {
-			pw.Write([]string{id, strconv.Itoa(k), e.start, strconv.FormatFloat(p[0], 'g', -1, 64), strconv.FormatFloat(p[1], 'g', -1, 64), "1000"})
+			pw.Write([]string{id, scenario, strconv.Itoa(k), e.start, strconv.FormatFloat(p[0], 'g', -1, 64), strconv.FormatFloat(p[1], 'g', -1, 64), "1000"})
 		}
 	}
 	ew.Flush()

@@ -2,7 +2,6 @@ package trends
 
 import (
 	"fmt"
-	"math"
 
 	"github.com/squall-climate/squall/pipeline"
 	"github.com/squall-climate/squall/stages/grid"
@@ -13,7 +12,7 @@ type region struct {
 	name     string
 	whole    bool // the implicit whole-domain region: everything is in
 	box      *grid.Box
-	polygons [][][][2]float64
+	polygons []*grid.Polygon
 }
 
 // buildRegions turns the campaign's regions into membership tests, with the
@@ -34,7 +33,15 @@ func buildRegions(c *pipeline.CampaignInfo, wholeName string) ([]region, error) 
 			b := grid.Box(*r.Box)
 			out = append(out, region{name: r.Name, box: &b})
 		case len(r.Polygons) > 0:
-			out = append(out, region{name: r.Name, polygons: r.Polygons})
+			reg := region{name: r.Name}
+			for k, rings := range r.Polygons {
+				p, err := grid.NewPolygon(rings)
+				if err != nil {
+					return nil, fmt.Errorf("region %q, polygon %d: %w", r.Name, k+1, err)
+				}
+				reg.polygons = append(reg.polygons, p)
+			}
+			out = append(out, reg)
 		default:
 			return nil, fmt.Errorf("region %q has neither a box nor polygons", r.Name)
 		}
@@ -42,8 +49,10 @@ func buildRegions(c *pipeline.CampaignInfo, wholeName string) ([]region, error) 
 	return out, nil
 }
 
-// contains reports whether the point (degrees) lies in the region. Polygon
-// holes (rings after the first) are excluded.
+// contains reports whether the point (degrees) lies in the region:
+// grid.InBox for boxes (antimeridian-crossing when LonMin > LonMax) and
+// grid.Polygon.Contains for GeoJSON polygons (rings unwrapped across the
+// antimeridian, holes excluded, rings around a pole closed through it).
 func (r *region) contains(lat, lon float64) bool {
 	switch {
 	case r.whole:
@@ -51,54 +60,10 @@ func (r *region) contains(lat, lon float64) bool {
 	case r.box != nil:
 		return grid.InBox(lat, lon, *r.box)
 	}
-	for _, poly := range r.polygons {
-		if len(poly) == 0 || !inRing(lat, lon, poly[0]) {
-			continue
-		}
-		inHole := false
-		for _, hole := range poly[1:] {
-			if inRing(lat, lon, hole) {
-				inHole = true
-				break
-			}
-		}
-		if !inHole {
+	for _, p := range r.polygons {
+		if p.Contains(lat, lon) {
 			return true
 		}
 	}
 	return false
-}
-
-// inRing is an even-odd crossing test on the ring unwrapped in longitude:
-// each vertex follows the previous one by the shorter way round
-// (grid.LonDiff), so a ring crossing the antimeridian, in either longitude
-// convention, becomes one continuous polygon; the point's longitude is then
-// shifted by whole turns into the ring's span. Edges are straight lines in
-// (lon, lat), the GeoJSON (RFC 7946) reading of a polygon, not great
-// circles; rings that enclose a pole are outside what this handles.
-func inRing(lat, lon float64, ring [][2]float64) bool {
-	n := len(ring)
-	if n < 3 {
-		return false
-	}
-	xs := make([]float64, n)
-	xs[0] = ring[0][0]
-	minX := xs[0]
-	for i := 1; i < n; i++ {
-		xs[i] = xs[i-1] + grid.LonDiff(ring[i-1][0], ring[i][0])
-		minX = math.Min(minX, xs[i])
-	}
-	px := minX + math.Mod(math.Mod(lon-minX, 360)+360, 360)
-	in := false
-	for i, j := 0, n-1; i < n; j, i = i, i+1 {
-		yi, yj := ring[i][1], ring[j][1]
-		if (yi > lat) == (yj > lat) {
-			continue
-		}
-		x := xs[j] + (lat-yj)*(xs[i]-xs[j])/(yi-yj)
-		if x > px {
-			in = !in
-		}
-	}
-	return in
 }
