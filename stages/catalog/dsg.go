@@ -65,7 +65,7 @@ func (c *Catalog) WriteTracks(path string, tf TrackFile) error {
 		a("long_name", "number of track points of each event"), a("sample_dimension", "obs")}})
 	w.DefVar(ncio.VarSpec{Name: "event_class", Type: ncio.Byte, Dims: ev, Attrs: []ncio.Attr{
 		a("long_name", "event class"), a("flag_values", []int8{TropicalCyclone, AtmosphericRiver}),
-		a("flag_meanings", ClassNames[TropicalCyclone] + " " + ClassNames[AtmosphericRiver])}})
+		a("flag_meanings", ClassNames[TropicalCyclone]+" "+ClassNames[AtmosphericRiver])}})
 	w.DefVar(ncio.VarSpec{Name: "member_index", Type: ncio.Int, Dims: ev, Attrs: []ncio.Attr{
 		a("long_name", "index (from 0) into the global attribute members, semicolon-separated sweep members")}})
 	dbl("event_area_max", ev, a("long_name", "maximum area of the event over its steps"), a("units", "km2"))
