@@ -58,11 +58,11 @@ func DetectAR(g *grid.Grid, value, thr []float64, c *ARConfig, step int, mask []
 		for _, k := range pix {
 			o.MaxValue = math.Max(o.MaxValue, value[k])
 		}
-		o.Length = objectLength(g, &comp, pix)
-		if o.Length > 0 {
-			o.Width = o.Area / o.Length
-			o.Aspect = o.Length / o.Width
+		sh, err := g.Shape(pix)
+		if err != nil {
+			return nil, err
 		}
+		o.Length, o.Width, o.Aspect = sh.Length, sh.Width, sh.Ratio
 		switch {
 		case math.Abs(o.CentroidLat) < c.MinCentroidLat:
 			o.Reason = fmt.Sprintf("centroid at %.1f deg, within %.1f deg of the equator", o.CentroidLat, c.MinCentroidLat)

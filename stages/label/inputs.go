@@ -83,7 +83,7 @@ func planTC(fl *Fields, c *TCConfig) (*tcPlan, error) {
 	}
 	if vc := fl.Find(85000, QVort, QVortCF); vc != nil {
 		p.vort = &vorticitySrc{c: vc}
-	} else if u, v := fl.Find(85000, QU), fl.Find(85000, QV); u != nil && v != nil && vorticityFromWinds != nil {
+	} else if u, v := fl.Find(85000, QU), fl.Find(85000, QV); u != nil && v != nil {
 		p.vort = &vorticitySrc{u: u, v: v}
 	}
 	if c.Has(CritVorticity) && p.vort == nil {

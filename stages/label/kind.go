@@ -242,7 +242,7 @@ func (r *Result) readTC(fl *Fields, s int, b *tcBuffers) (*TCStep, error) {
 			u := read(p.vort.u, b.vort)
 			v := read(p.vort.v, b.tmp)
 			if err == nil {
-				f.Vort850 = vorticityFromWinds(fl.Grid, u, v)
+				f.Vort850, err = fl.Grid.RelativeVorticity(u, v)
 			}
 		}
 	}
