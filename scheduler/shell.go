@@ -98,7 +98,12 @@ func CheckName(name string) error {
 var plainPathRE = regexp.MustCompile(`^[A-Za-z0-9_./+@:,=-]+$`)
 
 // PlainPath reports whether p may appear unquoted in a directive.
-func PlainPath(p string) bool { return plainPathRE.MatchString(p) && !strings.HasPrefix(p, "-") }
+// The {job} and {index} placeholders are allowed: engines replace them
+// with their own patterns.
+func PlainPath(p string) bool {
+	p = strings.NewReplacer("{job}", "j", "{index}", "i").Replace(p)
+	return plainPathRE.MatchString(p) && !strings.HasPrefix(p, "-")
+}
 
 // CheckEnvName validates an exported variable name.
 func CheckEnvName(n string) error {

@@ -264,10 +264,10 @@ func GoldenSpecs() []scheduler.JobSpec {
 // Golden renders GoldenSpecs with e and compares each script with
 // dir/NAME.ext, rewriting the files when update is set. Every golden must
 // also pass shellcheck. It returns the rendered scripts by name.
-func Golden(t *testing.T, e scheduler.Engine, dir, ext string, update bool) map[string][]byte {
+func Golden(t *testing.T, e scheduler.Engine, specs []scheduler.JobSpec, dir, ext string, update bool) map[string][]byte {
 	t.Helper()
 	out := map[string][]byte{}
-	for _, spec := range GoldenSpecs() {
+	for _, spec := range specs {
 		spec := spec
 		got, err := e.Render(&spec)
 		if err != nil {

@@ -1,6 +1,8 @@
 package local_test
 
 import (
+	"flag"
+	"path/filepath"
 	"testing"
 	"time"
 
@@ -26,4 +28,11 @@ func TestConformance(t *testing.T) {
 		Profile: profile(t),
 		New:     func(p *scheduler.Profile) scheduler.Engine { return local.New(p) },
 	})
+}
+
+var update = flag.Bool("update", false, "rewrite golden files")
+
+func TestGolden(t *testing.T) {
+	p := enginetest.GoldenProfile("local")
+	enginetest.Golden(t, local.New(p), enginetest.GoldenSpecs()[:5], filepath.Join("testdata", "golden"), ".sh", *update)
 }

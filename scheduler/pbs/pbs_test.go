@@ -173,8 +173,8 @@ func TestConformance(t *testing.T) {
 }
 
 func TestGolden(t *testing.T) {
-	e := pbs.New(enginetest.GoldenProfile("pbs", "-m n", "-l place=scatter:group=switch"))
-	scripts := enginetest.Golden(t, e, filepath.Join("testdata", "golden"), ".pbs", *update)
+	e := pbs.New(enginetest.GoldenProfile("pbs", "-m n", "-r y"))
+	scripts := enginetest.Golden(t, e, enginetest.GoldenSpecs(), filepath.Join("testdata", "golden"), ".pbs", *update)
 	for name, s := range scripts {
 		for _, l := range strings.Split(string(s), "\n") {
 			if strings.HasPrefix(l, "#PBS") && !pbs.DirectiveRE.MatchString(l) {

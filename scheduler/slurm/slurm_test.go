@@ -2,8 +2,10 @@ package slurm_test
 
 import (
 	"context"
+	"flag"
 	"os/exec"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 
@@ -81,5 +83,30 @@ func TestDependencyReason(t *testing.T) {
 	}
 	if st[f].ExitCode != 1 {
 		t.Errorf("failing job exit code %d, want 1 (false(1))", st[f].ExitCode)
+	}
+}
+
+var update = flag.Bool("update", false, "rewrite golden files")
+
+func TestGolden(t *testing.T) {
+	e := slurm.New(enginetest.GoldenProfile("slurm", "--constraint=gpu", "--qos=normal"))
+	s := enginetest.Golden(t, e, enginetest.GoldenSpecs(), filepath.Join("testdata", "golden"), ".sbatch", *update)
+	// sbatch option spellings from the sbatch manual page.
+	for _, want := range []string{"#SBATCH --nodes=4\n", "#SBATCH --ntasks-per-node=6\n", "#SBATCH --gpus-per-node=6\n",
+		"#SBATCH --time=06:00:00\n", "#SBATCH --signal=B:USR1@600\n", "#SBATCH --exclusive\n", "#SBATCH --output=logs/train-%j.out\n"} {
+		if !strings.Contains(string(s["train-seg1"]), want) {
+			t.Errorf("train-seg1 lacks %q", want)
+		}
+	}
+	if !strings.Contains(string(s["array"]), "#SBATCH --array=0-3%2\n") {
+		t.Errorf("array job lacks --array=0-3%%2")
+	}
+}
+
+func TestBadDirective(t *testing.T) {
+	p := enginetest.GoldenProfile("slurm", "constraint=gpu")
+	_, err := slurm.New(p).Render(&scheduler.JobSpec{Name: "x", Argv: []string{"true"}})
+	if err == nil || !strings.Contains(err.Error(), "directives[0]") {
+		t.Errorf("Render with a directive that is not an option: %v, want an error naming directives[0]", err)
 	}
 }

@@ -1,0 +1,33 @@
+#!/bin/bash
+# squall local job plain: 1 node(s) x 1 rank(s), 1 core(s) per rank, walltime 12:00:00
+# Job script written by squall for engine local; submit it again to resume:
+# it only ever writes below its own job directory.
+# shellcheck disable=SC1090,SC1091 # site set-up may source files we cannot follow
+set -eo pipefail
+
+# Site set-up (from the site profile, verbatim).
+module load cuda/12.2
+. /opt/venvs/squall/bin/activate
+set -u
+
+SQUALL_JOB_ID="${SQUALL_LOCAL_JOB_ID:-local}"
+SQUALL_JOB_DIR="${SQUALL_LOCAL_SUBMIT_DIR:-$PWD}"
+export SQUALL_JOB_ID SQUALL_JOB_DIR
+cd -- "$SQUALL_JOB_DIR"
+
+# squall_run runs a command in the background and waits for it, so that
+# a trapped signal is handled while it runs; it returns the command's status.
+squall_child=
+squall_run() {
+	"$@" &
+	squall_child=$!
+	local rc=0
+	while kill -0 "$squall_child" 2>/dev/null; do
+		wait "$squall_child" || true
+	done
+	wait "$squall_child" || rc=$?
+	squall_child=
+	return "$rc"
+}
+
+squall_run echo hello
