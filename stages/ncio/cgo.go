@@ -6,9 +6,47 @@ package ncio
 // double). Those few calls live here. A netcdf.Dataset is the C ncid.
 
 /*
-#cgo LDFLAGS: -lnetcdf
+#cgo LDFLAGS: -lnetcdf -ldl
 #include <stdlib.h>
+#include <stdint.h>
+#include <dlfcn.h>
 #include <netcdf.h>
+
+// HDF5 built thread-safe keeps its "print errors" switch per OS thread.
+// libnetcdf turns printing off only on the thread it initialised on, so
+// calls from Go's other threads dump HDF5-DIAG traces on stderr for
+// attributes that the library merely probes for (e.g. quantize settings
+// on files from older versions). sq_quiet turns printing off once per
+// thread; H5Eset_auto2 is looked up at run time so that no HDF5 headers
+// or link flags are needed. Return codes are unaffected.
+typedef int (*sq_set_auto_t)(int64_t, void *, void *);
+static __thread int sq_quiet_done;
+static void sq_quiet(void) {
+	static sq_set_auto_t fn;
+	static int looked;
+	if (sq_quiet_done) return;
+	sq_quiet_done = 1;
+	if (!looked) {
+		fn = (sq_set_auto_t)dlsym(RTLD_DEFAULT, "H5Eset_auto2");
+		looked = 1;
+	}
+	if (fn) fn(0, NULL, NULL); // H5E_DEFAULT is (hid_t)0
+}
+
+static int sq_open(const char *path, int *ncid) { sq_quiet(); return nc_open(path, NC_NOWRITE, ncid); }
+static int sq_create(const char *path, int *ncid) { sq_quiet(); return nc_create(path, NC_CLOBBER|NC_NETCDF4, ncid); }
+static int sq_inq_var(int ncid, int varid, char *name, nc_type *t, int *nd, int *dimids) {
+	sq_quiet(); return nc_inq_var(ncid, varid, name, t, nd, dimids, NULL);
+}
+static int sq_inq_att(int ncid, int varid, const char *name, nc_type *t, size_t *n) {
+	sq_quiet(); return nc_inq_att(ncid, varid, name, t, n);
+}
+static int sq_get_double(int ncid, int varid, const size_t *s, const size_t *c, double *p) { sq_quiet(); return nc_get_vara_double(ncid, varid, s, c, p); }
+static int sq_get_float(int ncid, int varid, const size_t *s, const size_t *c, float *p) { sq_quiet(); return nc_get_vara_float(ncid, varid, s, c, p); }
+static int sq_get_int(int ncid, int varid, const size_t *s, const size_t *c, int *p) { sq_quiet(); return nc_get_vara_int(ncid, varid, s, c, p); }
+static int sq_get_schar(int ncid, int varid, const size_t *s, const size_t *c, signed char *p) { sq_quiet(); return nc_get_vara_schar(ncid, varid, s, c, p); }
+static int sq_get_uchar(int ncid, int varid, const size_t *s, const size_t *c, unsigned char *p) { sq_quiet(); return nc_get_vara_uchar(ncid, varid, s, c, p); }
+static int sq_get_text(int ncid, int varid, const size_t *s, const size_t *c, char *p) { sq_quiet(); return nc_get_vara_text(ncid, varid, s, c, p); }
 */
 import "C"
 
@@ -43,6 +81,28 @@ func sizePtr(xs []C.size_t) *C.size_t {
 		return &dummy[0]
 	}
 	return &xs[0]
+}
+
+// openRead opens a file read-only.
+func openRead(path string) (netcdf.Dataset, error) {
+	cpath := C.CString(path)
+	defer C.free(unsafe.Pointer(cpath))
+	var id C.int
+	if err := ncErr(C.sq_open(cpath, &id)); err != nil {
+		return 0, err
+	}
+	return netcdf.Dataset(id), nil
+}
+
+// createNetCDF4 creates (clobbers) a netCDF-4 file.
+func createNetCDF4(path string) (netcdf.Dataset, error) {
+	cpath := C.CString(path)
+	defer C.free(unsafe.Pointer(cpath))
+	var id C.int
+	if err := ncErr(C.sq_create(cpath, &id)); err != nil {
+		return 0, err
+	}
+	return netcdf.Dataset(id), nil
 }
 
 func varID(ncid netcdf.Dataset, name string) (C.int, error) {
@@ -83,7 +143,7 @@ func attInfo(ncid netcdf.Dataset, varid C.int, name string) (Type, int, bool, er
 	defer C.free(unsafe.Pointer(cname))
 	var t C.nc_type
 	var n C.size_t
-	code := C.nc_inq_att(C.int(ncid), varid, cname, &t, &n)
+	code := C.sq_inq_att(C.int(ncid), varid, cname, &t, &n)
 	if code == C.NC_ENOTATT {
 		return 0, 0, false, nil
 	}
@@ -344,7 +404,7 @@ func getVaraDouble(ncid netcdf.Dataset, varid C.int, start, count []int, buf []f
 	if len(buf) > 0 {
 		p = (*C.double)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_double(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_double(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func getVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float32) error {
@@ -353,7 +413,7 @@ func getVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []fl
 	if len(buf) > 0 {
 		p = (*C.float)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_float(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_float(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func getVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int32) error {
@@ -362,7 +422,7 @@ func getVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int3
 	if len(buf) > 0 {
 		p = (*C.int)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_int(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_int(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func getVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int8) error {
@@ -371,7 +431,7 @@ func getVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []in
 	if len(buf) > 0 {
 		p = (*C.schar)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_schar(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_schar(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func getVaraUchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []uint8) error {
@@ -380,7 +440,7 @@ func getVaraUchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []ui
 	if len(buf) > 0 {
 		p = (*C.uchar)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_uchar(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_uchar(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func getVaraText(ncid netcdf.Dataset, varid C.int, start, count []int, buf []byte) error {
@@ -389,7 +449,7 @@ func getVaraText(ncid netcdf.Dataset, varid C.int, start, count []int, buf []byt
 	if len(buf) > 0 {
 		p = (*C.char)(unsafe.Pointer(&buf[0]))
 	}
-	return ncErr(C.nc_get_vara_text(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
+	return ncErr(C.sq_get_text(C.int(ncid), varid, sizePtr(s), sizePtr(c), p))
 }
 
 func putVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float32) error {
@@ -493,7 +553,7 @@ func varMeta(ncid netcdf.Dataset, varid C.int) (string, Type, []string, []int, e
 	var t C.nc_type
 	var nd C.int
 	dimids := make([]C.int, C.NC_MAX_VAR_DIMS)
-	if err := ncErr(C.nc_inq_var(C.int(ncid), varid, buf, &t, &nd, &dimids[0], nil)); err != nil {
+	if err := ncErr(C.sq_inq_var(C.int(ncid), varid, buf, &t, &nd, &dimids[0])); err != nil {
 		return "", 0, nil, nil, err
 	}
 	name := C.GoString(buf)

@@ -25,10 +25,10 @@
 // ReadFloat64/ReadFloat32 return physical values: stored values equal to
 // _FillValue or missing_value, or outside valid_min/valid_max/valid_range,
 // become NaN; then scale_factor and add_offset apply. Without _FillValue
-// the library's default fill marks missing values (except for byte types),
-// and a positive (negative) fill value bounds the valid range from above
-// (below) as the netCDF user guide says; this is what the netCDF4 Python
-// module does, and the tests check against it. ReadInt8, ReadUint8 and
+// the library's default fill for the type marks never-written values. This
+// is what the netCDF4 Python module (1.6) does, and the tests check against
+// it; like it, ncio does not apply the netCDF user guide's older rule that
+// a fill value also bounds the valid range. ReadInt8, ReadUint8 and
 // ReadInt32 return stored values untouched (masks, flags, counts).
 //
 // Variables are found by CF standard_name first and by name second; errors

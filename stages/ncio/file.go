@@ -48,7 +48,7 @@ func Open(path string) (*File, error) {
 		return nil, fileErr("open", path, errors.New("not a netCDF file (unknown header bytes)"),
 			"expected a netCDF-3 file starting with \"CDF\" or a netCDF-4/HDF5 file; is it text, GRIB or a compressed archive?")
 	}
-	ds, err := netcdf.OpenFile(path, netcdf.NOWRITE)
+	ds, err := openRead(path)
 	if err != nil {
 		return nil, fileErr("open", path, describeOpenErr(err), "the header is recognised but the library cannot read it; the file may be truncated or damaged, compare its size with the original")
 	}
@@ -114,7 +114,7 @@ func (f *File) load() error {
 		return err
 	}
 	for i := 0; i < n; i++ {
-		v, err := newVar(f, f.ds.VarN(i))
+		v, err := newVar(f, i)
 		if err != nil {
 			return err
 		}

@@ -13,7 +13,7 @@ const (
 	// LonEither: every longitude is within 0..180, so both conventions
 	// hold (a regional grid east of Greenwich).
 	LonEither LonConvention = iota
-	// Lon0To360: some longitude is above 180.
+	// Lon0To360: some longitude is above 180 (and none is negative).
 	Lon0To360
 	// LonMinus180To180: some longitude is negative.
 	LonMinus180To180
@@ -182,8 +182,10 @@ func (f *File) findGrid(onDims []string) (Grid, error) {
 		}
 		lo, hi = math.Min(lo, x), math.Max(hi, x)
 	}
-	if lo < -180-1e-6 || hi > 360+1e-6 || hi-lo >= 360 {
-		return Grid{}, bad(lon.name, fmt.Errorf("longitudes %v..%v are neither in 0..360 nor in -180..180", lo, hi))
+	// A repeated cyclic column (0..360 inclusive, or 30..390 as in some
+	// climatologies) spans exactly 360 degrees and is accepted.
+	if lo < -360 || hi > 720 || hi-lo > 360+1e-6 {
+		return Grid{}, bad(lon.name, fmt.Errorf("longitudes %v..%v span more than 360 degrees", lo, hi))
 	}
 	switch {
 	case lo < 0:

@@ -22,15 +22,9 @@ type Var struct {
 	pack  *packing // computed on first read
 }
 
-func newVar(f *File, nv netcdf.Var) (*Var, error) {
-	name, err := nv.Name()
-	if err != nil {
-		return nil, err
-	}
-	id, err := varID(f.ds, name)
-	if err != nil {
-		return nil, err
-	}
+func newVar(f *File, varid int) (*Var, error) {
+	nv := f.ds.VarN(varid)
+	id := cint(varid)
 	name, typ, dims, shape, err := varMeta(f.ds, id)
 	if err != nil {
 		return nil, err
@@ -218,36 +212,21 @@ func (v *Var) packing() *packing {
 	if mv, ok := v.AttrFloat64s("missing_value"); ok {
 		p.missing = append(p.missing, mv...)
 	}
-	byteType := v.typ == Byte || v.typ == UByte
-	if !hasFill && !byteType {
-		// Values never written hold the library's default fill; netCDF4-python
-		// masks them too, except for byte types where the default fill is a
-		// plausible value.
+	if !hasFill {
+		// Values never written hold the library's default fill; the netCDF4
+		// Python module masks them too (checked in the tests).
 		if df, ok := defaultFill(v.typ); ok {
-			fill, hasFill = df, true
 			p.missing = append(p.missing, df)
 		}
 	}
-	vr, hasRange := v.AttrFloat64s("valid_range")
-	switch {
-	case hasRange && len(vr) == 2:
+	if vr, ok := v.AttrFloat64s("valid_range"); ok && len(vr) == 2 {
 		p.lo, p.hi = vr[0], vr[1]
-	default:
-		hasRange = false
+	} else {
 		if x, ok := v.AttrFloat64("valid_min"); ok {
-			p.lo, hasRange = x, true
+			p.lo = x
 		}
 		if x, ok := v.AttrFloat64("valid_max"); ok {
-			p.hi, hasRange = x, true
-		}
-	}
-	if !hasRange && hasFill && !byteType {
-		// Netcdf user guide: without a valid range, a positive fill value is
-		// a valid maximum and a negative one a valid minimum.
-		if fill > 0 {
-			p.hi = fill
-		} else if fill < 0 {
-			p.lo = fill
+			p.hi = x
 		}
 	}
 	if s, ok := v.AttrFloat64("scale_factor"); ok {

@@ -71,7 +71,7 @@ type wvar struct {
 func Create(path string) (*Writer, error) {
 	dir := filepath.Dir(path)
 	tmp := filepath.Join(dir, "."+filepath.Base(path)+".partial")
-	ds, err := netcdf.CreateFile(tmp, netcdf.CLOBBER|netcdf.NETCDF4)
+	ds, err := createNetCDF4(tmp)
 	if err != nil {
 		return nil, fileErr("create", path, err, "check that the directory exists and is writable")
 	}
