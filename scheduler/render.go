@@ -121,7 +121,7 @@ func CheckJobID(id string) error {
 //	the warning trap and timer when asked
 //	cd to the job directory, the body
 //
-// The warning handler forwards the signal to whatever squall_run started,
+// The warning handler sets SQUALL_WARNED=1 and forwards the signal to whatever squall_run started,
 // so that a trainer launched with `squall_run srun ...` sees it.
 func RenderScript(p *Profile, d Dialect, spec *JobSpec, shape Shape) []byte {
 	var b strings.Builder

@@ -1,4 +1,4 @@
-// Package enginetest is the one conformance suite every engine passes:
+// The suite: every engine passes
 // rendering (shape checks, shellcheck-clean output), submission with
 // afterok dependencies, a failing job whose dependent is cancelled, states
 // of many jobs in one call, cancel, unknown ids, and hostile argv words
