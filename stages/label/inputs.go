@@ -74,9 +74,9 @@ func (m *missingInput) err(fl *Fields, hint string) error {
 func hPa(p float64) string { return fmt.Sprintf("%g hPa", p/100) }
 
 // planTC resolves the TC channels for the switched-on criteria.
-func planTC(fl *Fields, c *TCConfig) (*tcPlan, error) {
+func planTC(fl *Fields, c *TCConfig, mask bool) (*tcPlan, error) {
 	var m missingInput
-	p := &tcPlan{needWind10ForMask: true}
+	p := &tcPlan{}
 	p.slp = fl.Find(0, QSLP)
 	if p.slp == nil {
 		m.add("tropical-cyclone detection (SLP minima)", "sea-level pressure ("+QSLP+")", QSLP)
@@ -95,7 +95,9 @@ func planTC(fl *Fields, c *TCConfig) (*tcPlan, error) {
 		if c.Has(CritMaxWind) {
 			m.add("tropical-cyclone criterion max_wind", "the 10 m wind speed", lack)
 		}
-		m.add("the tropical-cyclone mask (pixels within the gale-wind radius)", "the 10 m wind speed", lack)
+		if mask {
+			m.add("the tropical-cyclone mask (pixels within the gale-wind radius)", "the 10 m wind speed", lack)
+		}
 	}
 	p.t850, p.t700 = fl.Find(85000, QTemp), fl.Find(70000, QTemp)
 	p.t500, p.t300 = fl.Find(50000, QTemp), fl.Find(30000, QTemp)

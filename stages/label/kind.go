@@ -141,7 +141,7 @@ func Label(ctx context.Context, fl *Fields, cfg *Config, climPath string, logf f
 	r := &Result{cfg: cfg, ctx: ctx, logf: logf}
 	var errs []error
 	if cfg.TC {
-		p, err := planTC(fl, &cfg.TCConf)
+		p, err := planTC(fl, &cfg.TCConf, !cfg.TracksOnly)
 		if err != nil {
 			errs = append(errs, err)
 		}
@@ -263,6 +263,9 @@ func (r *Result) readTC(fl *Fields, s int, b *tcBuffers) (*TCStep, error) {
 // AR objects, overlap precedence) and writes mask.nc and the CSV tables
 // into dir.
 func (r *Result) Write(dir string, fl *Fields, prov ncio.Provenance) error {
+	if r.cfg.TracksOnly {
+		return errors.New("label: a tracks-only result has no masks to write")
+	}
 	return r.write(dir, fl, prov)
 }
 

@@ -83,6 +83,10 @@ type Config struct {
 	TCConf  TCConfig
 	ARConf  ARConfig
 	Overlap string // class that wins where both apply
+	// TracksOnly runs the tropical-cyclone candidate and track passes
+	// without the mask, so the 10 m wind is not required (pressure-only
+	// tracking for diagnostics and tests). Not a setting; Write refuses it.
+	TracksOnly bool
 }
 
 // Settings declares the label kind's settings. Every default names its
