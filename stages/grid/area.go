@@ -1,6 +1,9 @@
 package grid
 
-import "math"
+import (
+	"fmt"
+	"math"
+)
 
 // EarthRadius is the radius of the sphere used for every distance and area:
 // the GRS80/IUGG mean radius R1 = (2a + b)/3, in metres.
@@ -77,4 +80,52 @@ func (g *Grid) CellAreas() []float64 {
 		}
 	}
 	return a
+}
+
+// MaskArea is the total area in m^2 of the cells where mask is true (all
+// cells when mask is nil).
+func (g *Grid) MaskArea(mask []bool) (float64, error) {
+	if mask != nil && len(mask) != g.Len() {
+		return 0, fmt.Errorf("grid: mask has %d points, grid %dx%d has %d", len(mask), g.NLat(), g.NLon(), g.Len())
+	}
+	rows := g.RowAreas()
+	n := g.NLon()
+	var sum float64
+	for i, a := range rows {
+		for j := range n {
+			if mask == nil || mask[i*n+j] {
+				sum += a
+			}
+		}
+	}
+	return sum, nil
+}
+
+// AreaMean is the area-weighted mean of f over the cells where mask is true
+// (all cells when mask is nil), skipping NaN values:
+//
+//	mean = sum_k A_k f_k / sum_k A_k  over selected cells with finite f_k
+//
+// area is the sum of A_k over the cells that counted; with none, mean is
+// NaN and area 0.
+func (g *Grid) AreaMean(f []float64, mask []bool) (mean, area float64, err error) {
+	if len(f) != g.Len() || (mask != nil && len(mask) != g.Len()) {
+		return 0, 0, fmt.Errorf("grid: field has %d points and mask %d, grid %dx%d has %d", len(f), len(mask), g.NLat(), g.NLon(), g.Len())
+	}
+	rows := g.RowAreas()
+	n := g.NLon()
+	var sum float64
+	for i, a := range rows {
+		for j := range n {
+			k := i*n + j
+			if (mask == nil || mask[k]) && isFinite(f[k]) {
+				sum += a * f[k]
+				area += a
+			}
+		}
+	}
+	if area == 0 {
+		return math.NaN(), 0, nil
+	}
+	return sum / area, area, nil
 }

@@ -85,3 +85,49 @@ func TestBounds(t *testing.T) {
 		t.Errorf("LonBounds: first %v, last %v", lb[0], lb[359])
 	}
 }
+
+func TestAreaMean(t *testing.T) {
+	g := mustRegular(t, 89.5, -1, 180, -179.5, 1, 360)
+	// sin(lat) is odd about the equator: its area mean over the globe is 0
+	// (derived). A constant's mean is itself.
+	f := field(g, func(lat, _ float64) float64 { return math.Sin(lat * deg2rad) })
+	if m, _, _ := g.AreaMean(f, nil); math.Abs(m) > 1e-15 {
+		t.Errorf("global mean of sin(lat) = %g, want 0", m)
+	}
+	// The indicator of 30S-30N averages to 1/2 (derived: half the sphere),
+	// and the masked area of that band is 2 pi R^2.
+	band := make([]bool, g.Len())
+	ind := field(g, func(lat, _ float64) float64 {
+		if math.Abs(lat) < 30 {
+			return 1
+		}
+		return 0
+	})
+	for k, v := range ind {
+		band[k] = v == 1
+	}
+	if m, a, _ := g.AreaMean(ind, nil); math.Abs(m-0.5) > 1e-12 || math.Abs(a-4*math.Pi*EarthRadius*EarthRadius) > 1e-12*a {
+		t.Errorf("mean of the band indicator %g (want 0.5), area %g", m, a)
+	}
+	if a, _ := g.MaskArea(band); math.Abs(a-2*math.Pi*EarthRadius*EarthRadius) > 1e-12*a {
+		t.Errorf("band area %g, want 2 pi R^2", a)
+	}
+	// NaN cells are skipped: the mean over the band of a field that is 3
+	// there and NaN elsewhere is 3.
+	h := make([]float64, g.Len())
+	for k := range h {
+		h[k] = math.NaN()
+		if band[k] {
+			h[k] = 3
+		}
+	}
+	if m, a, _ := g.AreaMean(h, nil); math.Abs(m-3) > 1e-12 || math.Abs(a-2*math.Pi*EarthRadius*EarthRadius) > 1e-12*a {
+		t.Errorf("NaN-skipping mean %g, area %g", m, a)
+	}
+	if m, a, _ := g.AreaMean(h, make([]bool, g.Len())); !math.IsNaN(m) || a != 0 {
+		t.Errorf("empty mask: %g, %g", m, a)
+	}
+	if _, _, err := g.AreaMean(h[1:], nil); err == nil {
+		t.Error("short field accepted")
+	}
+}

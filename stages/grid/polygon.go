@@ -202,3 +202,40 @@ func (g *Grid) PolygonMask(polys ...*Polygon) []bool {
 	}
 	return m
 }
+
+// RegionMask returns, in (lat, lon) order, whether each cell centre lies in
+// a campaign region given as a box (box may be nil) and/or GeoJSON polygons
+// (each a list of rings): a cell is in the region when it is in the box or
+// in any polygon. A pipeline.Region converts directly:
+// g.RegionMask((*grid.Box)(r.Box), r.Polygons). Errors name the polygon.
+func (g *Grid) RegionMask(box *Box, polygons [][][][2]float64) ([]bool, error) {
+	if box == nil && len(polygons) == 0 {
+		return nil, fmt.Errorf("grid: region has neither a box nor polygons")
+	}
+	var m []bool
+	if box != nil {
+		if !(box.LatMin <= box.LatMax) {
+			return nil, fmt.Errorf("grid: region box lat_min %g is above lat_max %g", box.LatMin, box.LatMax)
+		}
+		m = g.BoxMask(*box)
+	}
+	if len(polygons) > 0 {
+		ps := make([]*Polygon, len(polygons))
+		for k, rings := range polygons {
+			p, err := NewPolygon(rings)
+			if err != nil {
+				return nil, fmt.Errorf("grid: region polygon %d: %w", k, err)
+			}
+			ps[k] = p
+		}
+		pm := g.PolygonMask(ps...)
+		if m == nil {
+			m = pm
+		} else {
+			for k := range m {
+				m[k] = m[k] || pm[k]
+			}
+		}
+	}
+	return m, nil
+}

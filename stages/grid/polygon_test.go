@@ -180,3 +180,28 @@ func TestPolygonMask(t *testing.T) {
 		t.Errorf("%d cells in the region, want 500", n)
 	}
 }
+
+func TestRegionMask(t *testing.T) {
+	g := mustRegular(t, -89.5, 1, 180, 0.5, 1, 360)
+	box := &Box{LatMin: 40, LatMax: 50, LonMin: 10, LonMax: 20}
+	polys := [][][][2]float64{{{{170, -10}, {-170, -10}, {-170, 10}, {170, 10}, {170, -10}}}}
+	m, err := g.RegionMask(box, polys)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	for _, v := range m {
+		if v {
+			n++
+		}
+	}
+	if n != 500 { // 10 x 10 box cells + 20 x 20 polygon cells (by construction)
+		t.Errorf("%d cells, want 500", n)
+	}
+	if _, err := g.RegionMask(nil, nil); err == nil {
+		t.Error("empty region accepted")
+	}
+	if _, err := g.RegionMask(nil, [][][][2]float64{{{{0, 0}, {1, 1}}}}); err == nil || !strings.Contains(err.Error(), "polygon 0") {
+		t.Errorf("bad polygon: %v", err)
+	}
+}
