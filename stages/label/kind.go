@@ -189,7 +189,10 @@ func Label(ctx context.Context, fl *Fields, cfg *Config, climPath string, logf f
 			if err != nil {
 				return nil, err
 			}
-			r.Candidates[s] = FindCandidates(fl.Grid, f, c, r.windMin, s, fl.Hours[s])
+			r.Candidates[s], err = FindCandidates(fl.Grid, f, c, r.windMin, s, fl.Hours[s])
+			if err != nil {
+				return nil, err
+			}
 		}
 		r.Tracks = Stitch(r.Candidates, fl.Hours, TrackRules{
 			MaxSpeed: c.MaxSpeed, MaxGapSteps: c.MaxGapSteps, MinLifetime: c.MinLifetime,

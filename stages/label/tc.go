@@ -89,9 +89,10 @@ func box(g *grid.Grid, i, j, r int, out []int) (ks []int, complete bool) {
 
 // FindCandidates returns the storm centres of one time step in row-major
 // order of their SLP minimum. A centre is a point whose SLP is the lowest
-// in its box (ties go to the first in row-major order) and whose box lies
-// wholly inside the grid and holds no missing SLP, so that a minimum at an
-// edge, where the true centre may lie outside, is never taken. It must then
+// in its box (grid.LocalMinima: ties go to the first in row-major order)
+// and whose box lies wholly inside the grid and holds no missing SLP, so
+// that a minimum at an edge, where the true centre may lie outside, is
+// never taken. It must then
 // pass every criterion switched on in c:
 //
 //   - vorticity: max over the box of s*zeta850 >= VorticityMin, with s = +1
@@ -105,18 +106,20 @@ func box(g *grid.Grid, i, j, r int, out []int) (ks []int, complete bool) {
 //
 // Genesis latitude is a track rule (see Stitch). windMin is the resolved
 // wind threshold (WindThreshold when the setting is 0).
-func FindCandidates(g *grid.Grid, f *TCStep, c *TCConfig, windMin float64, step int, hours float64) []Candidate {
+func FindCandidates(g *grid.Grid, f *TCStep, c *TCConfig, windMin float64, step int, hours float64) ([]Candidate, error) {
 	r := c.SearchRadiusPt
+	minima, err := g.LocalMinima(f.SLP, r)
+	if err != nil {
+		return nil, err
+	}
 	buf := make([]int, 0, (2*r+1)*(2*r+1))
 	var out []Candidate
-	for k, p := range f.SLP {
-		if math.IsNaN(p) {
-			continue
-		}
+	for _, k := range minima {
+		p := f.SLP[k]
 		i, j := g.RowCol(k)
 		ks, complete := box(g, i, j, r, buf)
 		buf = ks
-		if !complete || !isBoxMin(f.SLP, ks, k) {
+		if !complete || hasNaN(f.SLP, ks) {
 			continue
 		}
 		if c.MinSLPDepth > 0 && boxMean(f.SLP, ks)-p < c.MinSLPDepth {
@@ -165,20 +168,17 @@ func FindCandidates(g *grid.Grid, f *TCStep, c *TCConfig, windMin float64, step 
 		}
 		out = append(out, cand)
 	}
-	return out
+	return out, nil
 }
 
-// isBoxMin reports whether f[k] is the box's lowest value, the first in
-// row-major order among equals, with no missing value in the box.
-func isBoxMin(f []float64, ks []int, k int) bool {
-	p := f[k]
+// hasNaN reports whether the box holds a missing value.
+func hasNaN(f []float64, ks []int) bool {
 	for _, q := range ks {
-		v := f[q]
-		if math.IsNaN(v) || v < p || (v == p && q < k) {
-			return false
+		if math.IsNaN(f[q]) {
+			return true
 		}
 	}
-	return true
+	return false
 }
 
 // boxMean is the mean of the box's non-missing values (NaN if none).

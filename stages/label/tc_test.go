@@ -66,7 +66,7 @@ func TestCandidatesPlantedStorm(t *testing.T) {
 	w := plantedStorm(t)
 	c := defaultTC(t)
 	thr := WindThreshold(w.g)
-	cands := FindCandidates(w.g, w.step(1), &c, thr, 0, 0)
+	cands := findCands(t, w.g, w.step(1), &c, thr, 0, 0)
 	if len(cands) != 1 {
 		t.Fatalf("%d candidates, want 1: %+v", len(cands), cands)
 	}
@@ -100,7 +100,7 @@ func TestCandidateCriteriaReject(t *testing.T) {
 	c := defaultTC(t)
 	thr := WindThreshold(base.g)
 	t.Run("cold core", func(t *testing.T) {
-		if n := len(FindCandidates(base.g, base.step(-1), &c, thr, 0, 0)); n != 0 {
+		if n := len(findCands(t, base.g, base.step(-1), &c, thr, 0, 0)); n != 0 {
 			t.Errorf("cold-core storm gave %d candidates", n)
 		}
 	})
@@ -109,14 +109,14 @@ func TestCandidateCriteriaReject(t *testing.T) {
 		w.storm = []holland{base.storm[0]}
 		w.storm[0].dp = 300 // peak Vg about 12 m/s, below the threshold
 		f := w.step(1)
-		if n := len(FindCandidates(w.g, f, &c, thr, 0, 0)); n != 0 {
+		if n := len(findCands(t, w.g, f, &c, thr, 0, 0)); n != 0 {
 			t.Errorf("weak storm gave %d candidates", n)
 		}
 		// Switch the wind and vorticity criteria off and it is found again
 		// (the warm core is planted independently of the wind).
 		loose := c
 		loose.Criteria = []string{CritWarmCore}
-		if n := len(FindCandidates(w.g, f, &loose, thr, 0, 0)); n != 1 {
+		if n := len(findCands(t, w.g, f, &loose, thr, 0, 0)); n != 1 {
 			t.Errorf("weak storm with warm_core only gave %d candidates, want 1", n)
 		}
 	})
@@ -125,7 +125,7 @@ func TestCandidateCriteriaReject(t *testing.T) {
 		for k := range f.Vort850 {
 			f.Vort850[k] = -f.Vort850[k] // anticyclonic in the north
 		}
-		if n := len(FindCandidates(base.g, f, &c, thr, 0, 0)); n != 0 {
+		if n := len(findCands(t, base.g, f, &c, thr, 0, 0)); n != 0 {
 			t.Errorf("anticyclonic vorticity gave %d candidates", n)
 		}
 	})
@@ -134,7 +134,7 @@ func TestCandidateCriteriaReject(t *testing.T) {
 		w.g = mustGrid(t, -35, 0.5, 61, 125, 0.5, 61)
 		w.storm = []holland{base.storm[0]}
 		w.storm[0].lat = -18
-		if n := len(FindCandidates(w.g, w.step(1), &c, thr, 0, 0)); n != 1 {
+		if n := len(findCands(t, w.g, w.step(1), &c, thr, 0, 0)); n != 1 {
 			t.Errorf("southern storm (negative vorticity) gave %d candidates, want 1", n)
 		}
 	})
@@ -143,7 +143,7 @@ func TestCandidateCriteriaReject(t *testing.T) {
 		for k := range f.Wind300 {
 			f.Wind300[k] = f.Wind850[k] + 1
 		}
-		if n := len(FindCandidates(base.g, f, &c, thr, 0, 0)); n != 0 {
+		if n := len(findCands(t, base.g, f, &c, thr, 0, 0)); n != 0 {
 			t.Errorf("storm with stronger 300 hPa wind gave %d candidates", n)
 		}
 	})
@@ -151,7 +151,7 @@ func TestCandidateCriteriaReject(t *testing.T) {
 		w := base
 		w.storm = []holland{base.storm[0]}
 		w.storm[0].lat, w.storm[0].lon = 6, 140 // 2 rows from the edge
-		if n := len(FindCandidates(w.g, w.step(1), &c, thr, 0, 0)); n != 0 {
+		if n := len(findCands(t, w.g, w.step(1), &c, thr, 0, 0)); n != 0 {
 			t.Errorf("storm whose box leaves the grid gave %d candidates", n)
 		}
 	})
@@ -167,7 +167,7 @@ func TestCandidatesAcrossDateLine(t *testing.T) {
 	h := holland{lat: 15.5, lon: 359.5, pc: 96000, dp: 5000, rmax: 80e3, b: 1.5, rho: 1.15}
 	w := world{g: g, storm: []holland{h}}
 	c := defaultTC(t)
-	cands := FindCandidates(g, w.step(1), &c, WindThreshold(g), 0, 0)
+	cands := findCands(t, g, w.step(1), &c, WindThreshold(g), 0, 0)
 	if len(cands) != 1 || cands[0].Lon != 359.5 || cands[0].Lat != 15.5 {
 		t.Fatalf("candidates %+v, want one at 15.5N 359.5E", cands)
 	}
@@ -272,7 +272,7 @@ func TestFootprint(t *testing.T) {
 	f := w.step(1)
 	c := defaultTC(t)
 	thr := WindThreshold(w.g)
-	cands := FindCandidates(w.g, f, &c, thr, 0, 0)
+	cands := findCands(t, w.g, f, &c, thr, 0, 0)
 	if len(cands) != 1 {
 		t.Fatalf("%d candidates", len(cands))
 	}
@@ -298,4 +298,13 @@ func TestFootprint(t *testing.T) {
 			t.Errorf("cap %g km: %d pixels, want %d", capR/1e3, n, want)
 		}
 	}
+}
+
+func findCands(t testing.TB, g *grid.Grid, f *TCStep, c *TCConfig, windMin float64, step int, hours float64) []Candidate {
+	t.Helper()
+	cs, err := FindCandidates(g, f, c, windMin, step, hours)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return cs
 }
