@@ -144,12 +144,13 @@ func RenderScript(p *Profile, d Dialect, spec *JobSpec, shape Shape) []byte {
 	w("set -u")
 	w("")
 	w("SQUALL_JOB_ID=%s", d.JobID)
+	w("SQUALL_SUBMIT_DIR=%s", d.SubmitDir)
 	if spec.Dir != "" {
 		w("SQUALL_JOB_DIR=%s", Quote(spec.Dir))
 	} else {
-		w("SQUALL_JOB_DIR=%s", d.SubmitDir)
+		w("SQUALL_JOB_DIR=$SQUALL_SUBMIT_DIR")
 	}
-	w("export SQUALL_JOB_ID SQUALL_JOB_DIR")
+	w("export SQUALL_JOB_ID SQUALL_SUBMIT_DIR SQUALL_JOB_DIR")
 	if spec.Array > 0 {
 		w("SQUALL_ARRAY_INDEX=%s", d.ArrayIndex)
 		w("export SQUALL_ARRAY_INDEX")

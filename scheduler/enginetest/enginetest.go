@@ -6,6 +6,7 @@
 //
 // An engine's test calls Run with a Harness. Engines without a real batch
 // system here (PBS, LSF) run it against fake submit commands on PATH.
+
 package enginetest
 
 import (

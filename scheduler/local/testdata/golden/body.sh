@@ -11,8 +11,9 @@ module load cuda/12.2
 set -u
 
 SQUALL_JOB_ID="${SQUALL_LOCAL_JOB_ID:-local}"
-SQUALL_JOB_DIR="${SQUALL_LOCAL_SUBMIT_DIR:-$PWD}"
-export SQUALL_JOB_ID SQUALL_JOB_DIR
+SQUALL_SUBMIT_DIR="${SQUALL_LOCAL_SUBMIT_DIR:-$PWD}"
+SQUALL_JOB_DIR=$SQUALL_SUBMIT_DIR
+export SQUALL_JOB_ID SQUALL_SUBMIT_DIR SQUALL_JOB_DIR
 cd -- "$SQUALL_JOB_DIR"
 
 # squall_run runs a command in the background and waits for it, so that

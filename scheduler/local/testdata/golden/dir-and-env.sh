@@ -11,8 +11,9 @@ module load cuda/12.2
 set -u
 
 SQUALL_JOB_ID="${SQUALL_LOCAL_JOB_ID:-local}"
+SQUALL_SUBMIT_DIR="${SQUALL_LOCAL_SUBMIT_DIR:-$PWD}"
 SQUALL_JOB_DIR=/scratch/campaign/jobs/run-1
-export SQUALL_JOB_ID SQUALL_JOB_DIR
+export SQUALL_JOB_ID SQUALL_SUBMIT_DIR SQUALL_JOB_DIR
 export A_B='x y'
 cd -- "$SQUALL_JOB_DIR"
 
