@@ -22,8 +22,9 @@
 //
 //   - Angles are degrees in the API and radians inside formulas; distances
 //     and areas are metres and square metres on a sphere of radius
-//     EarthRadius (GRS80 mean radius R1). The Earth's flattening is ignored
-//     (about 0.3% in distances), as CF cell areas on a sphere do.
+//     EarthRadius (GRS80 mean radius R1). The Earth's flattening (1/298) is
+//     ignored, as CF cell areas on a sphere do; spherical distances differ
+//     from ellipsoidal ones by up to about 0.5% (from memory).
 //   - A Grid holds latitudes in either order (south-to-north or
 //     north-to-south) and longitudes that increase eastwards, written in
 //     0..360 or -180..180 (a regional grid may cross the antimeridian, e.g.
