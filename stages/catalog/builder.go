@@ -116,6 +116,12 @@ type Builder struct {
 	linkers [3]*Linker
 	acc     [3][]*Event // parallel to linkers[k].Events()
 	steps   int
+	// LinkKmPer6h is, per class, the largest centroid displacement in 6
+	// hours for linking objects that do not overlap (0: overlap only); it
+	// scales with the time between steps.
+	LinkKmPer6h [3]float64
+	prevHours   float64
+	started     bool
 }
 
 // NewBuilder makes a Builder for a grid. land (may be nil) marks land
@@ -158,12 +164,17 @@ func (b *Builder) Step(step int, t Time, mask []byte, f Fields) error {
 			return fmt.Errorf("catalog: mask value %d at lat %g lon %g is not one of the flag_values 0, 1, 2", v, b.g.Lat[i], b.g.Lon[j])
 		}
 	}
+	dtHours := 0.0
+	if b.started {
+		dtHours = t.Hours - b.prevHours
+	}
+	b.started, b.prevHours = true, t.Hours
 	for _, k := range []int{TropicalCyclone, AtmosphericRiver} {
 		lab, err := b.g.Components(grid.Equal(mask, byte(k)))
 		if err != nil {
 			return err
 		}
-		evOf, err := b.linkers[k].Step(step, lab)
+		evOf, err := b.linkers[k].Step(step, lab, b.LinkKmPer6h[k]*dtHours/6)
 		if err != nil {
 			return err
 		}

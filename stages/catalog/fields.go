@@ -18,7 +18,8 @@ import (
 //	IVT   quantity ivt, else ivt_u and ivt_v
 //	IWV   quantity iwv or atmosphere_mass_content_of_water_vapor
 //
-// Each is converted to SI units (Pa, m s-1, kg m-1 s-1, kg m-2); a field
+// Files without quantity attributes (raw model output) are read by
+// standard_name instead. Each is converted to SI units (Pa, m s-1, kg m-1 s-1, kg m-2); a field
 // that is absent leaves its intensity columns empty.
 type FieldsFile struct {
 	Path  string
@@ -65,7 +66,14 @@ func (ff *FieldsFile) init() error {
 	}
 	find := func(quantity, to string) (*channel, error) {
 		for _, v := range f.Vars() {
-			if len(v.DimNames()) != 3 || v.AttrString("quantity") != quantity {
+			// fields.nc names the quantity; raw model files only have
+			// standard names, which equal the quantity for non-derived
+			// fields (3-D (time, lat, lon) only: level fields have 4 dims).
+			q := v.AttrString("quantity")
+			if q == "" {
+				q = v.StandardName()
+			}
+			if len(v.DimNames()) != 3 || q != quantity {
 				continue
 			}
 			if _, hasLevel := v.AttrFloat64("level_pa"); hasLevel {

@@ -70,6 +70,10 @@ func (Kind) Settings() []pipeline.Setting {
 			Doc: "drop events seen at fewer time steps than this"},
 		{Name: "min_area_km2", Type: pipeline.TypeFloat, Unit: "km2", Default: 0.0, Min: pipeline.Bound(0),
 			Doc: "drop events whose largest area is below this"},
+		{Name: "tc_link_km_per_6h", Type: pipeline.TypeFloat, Unit: "km", Default: 400.0, Min: pipeline.Bound(0),
+			Doc: "cyclone objects that do not overlap between steps are linked when their centroids are at most this far apart per 6 hours (400 km per 6 h: a common tracking limit, from memory; 0: overlap only)"},
+		{Name: "ar_link_km_per_6h", Type: pipeline.TypeFloat, Unit: "km", Default: 0.0, Min: pipeline.Bound(0),
+			Doc: "the same for river objects (0: overlap only; rivers are large and overlap from step to step)"},
 		{Name: "max_gap_factor", Type: pipeline.TypeFloat, Unit: "1", Default: 1.5, Min: pipeline.Bound(1),
 			Doc: "events end where two consecutive time steps are further apart than this many times the usual time step (missing data)"},
 	}
@@ -93,6 +97,7 @@ type config struct {
 	rule                           LandRule
 	filter                         Filter
 	gapFactor                      float64
+	linkKm                         [3]float64
 }
 
 func readConfig(v pipeline.Values) config {
@@ -102,6 +107,7 @@ func readConfig(v pipeline.Values) config {
 		rule:      LandRule{Values: v.Floats("land_values"), MinFraction: v.Float("land_fraction_min")},
 		filter:    Filter{MinSteps: v.Int("min_steps"), MinAreaKm2: v.Float("min_area_km2")},
 		gapFactor: v.Float("max_gap_factor"),
+		linkKm:    [3]float64{0, v.Float("tc_link_km_per_6h"), v.Float("ar_link_km_per_6h")},
 	}
 }
 
@@ -336,6 +342,7 @@ func buildSeries(ctx context.Context, job *pipeline.Job, cfg config, bl []block,
 				if b, err = NewBuilder(g, land, regions); err != nil {
 					return err
 				}
+				b.LinkKmPer6h = cfg.linkKm
 				maskBuf = make([]byte, g.Len())
 			} else if err := SameGrid(g, mf.Grid, firstMask, blk.mask); err != nil {
 				return err

@@ -118,10 +118,10 @@ func defaults(k pipeline.Kind) pipeline.Values {
 	return v
 }
 
-// world builds two yearly blocks of a small global world: a cyclone that
+// smallWorld builds two yearly blocks of a small global world: a cyclone that
 // crosses both the date line and the year boundary (so it must be one
 // event), deepening over the steps, and a river that makes landfall.
-func world(t *testing.T, dir string) (in []pipeline.Input) {
+func smallWorld(t *testing.T, dir string) (in []pipeline.Input) {
 	t.Helper()
 	g, err := grid.Global(2, 2)
 	if err != nil {
@@ -226,7 +226,7 @@ func runCatalog(t *testing.T, in []pipeline.Input, set map[string]any) (string, 
 
 func TestKindRun(t *testing.T) {
 	dir := t.TempDir()
-	in := world(t, dir)
+	in := smallWorld(t, dir)
 	out, err := runCatalog(t, in, nil)
 	if err != nil {
 		t.Fatal(err)

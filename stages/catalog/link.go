@@ -24,6 +24,13 @@ import (
 // The larger piece by overlap keeps the identity, so ids stay stable under
 // small changes of the mask.
 //
+// Small fast objects (a cyclone a few cells wide on a coarse grid moves
+// more than its own size in 6 hours) may not overlap from one step to the
+// next. When Step is given a positive maxKm, objects at t-1 and t that
+// overlapped nothing at all are then paired greedily by increasing
+// great-circle distance between their area-weighted centroids, up to
+// maxKm (ties: lower label at t-1, then at t).
+//
 // Cost: one look-up per object pixel per step plus a sort of the
 // overlapping pairs, which are few: linear in object pixels.
 type Linker struct {
@@ -64,7 +71,7 @@ func (l *Linker) Break() {
 // previous one directly must be preceded by Break). lab is the step's
 // labelling; it is kept until the next call. Step returns the event index
 // of every object, indexed by label-1.
-func (l *Linker) Step(step int, lab *grid.Labelling) ([]int, error) {
+func (l *Linker) Step(step int, lab *grid.Labelling, maxKm float64) ([]int, error) {
 	if len(lab.Labels) != len(l.cellArea) {
 		return nil, fmt.Errorf("catalog: label image has %d cells, grid has %d", len(lab.Labels), len(l.cellArea))
 	}
@@ -136,6 +143,45 @@ func (l *Linker) Step(step int, lab *grid.Labelling) ([]int, error) {
 		e := l.prevEvent[p]
 		evOf[c] = e
 		l.events[e].Labels = append(l.events[e].Labels, pr.c)
+	}
+	if maxKm > 0 && nPrev > 0 {
+		var near []pair
+		for p := range nPrev {
+			if prevUsed[p] || bestCur[p] != 0 {
+				continue
+			}
+			pc := l.prev.Components[p]
+			for c := range nCur {
+				if evOf[c] >= 0 || bestPrev[c] != 0 {
+					continue
+				}
+				cc := lab.Components[c]
+				d := grid.Distance(pc.CentroidLat, pc.CentroidLon, cc.CentroidLat, cc.CentroidLon) / 1000
+				if d <= maxKm {
+					near = append(near, pair{int32(p + 1), int32(c + 1), d})
+				}
+			}
+		}
+		sort.Slice(near, func(i, j int) bool {
+			a, b := near[i], near[j]
+			if a.overlap != b.overlap {
+				return a.overlap < b.overlap
+			}
+			if a.p != b.p {
+				return a.p < b.p
+			}
+			return a.c < b.c
+		})
+		for _, pr := range near {
+			p, c := pr.p-1, pr.c-1
+			if prevUsed[p] || evOf[c] >= 0 {
+				continue
+			}
+			prevUsed[p] = true
+			e := l.prevEvent[p]
+			evOf[c] = e
+			l.events[e].Labels = append(l.events[e].Labels, pr.c)
+		}
 	}
 	for c := range nCur {
 		if evOf[c] >= 0 {

@@ -51,7 +51,7 @@ func TestLinkerSplitMerge(t *testing.T) {
 		{"####....", []int{3}}, // an empty step in between ends event 0
 	}
 	for i, s := range steps {
-		got, err := l.Step(i, label(t, g, s.img))
+		got, err := l.Step(i, label(t, g, s.img), 0)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -79,7 +79,7 @@ func TestLinkerSplitMerge(t *testing.T) {
 	}
 	// A gap ends everything: the same cells after Break are a new event.
 	l.Break()
-	got, _ := l.Step(7, label(t, g, "####...."))
+	got, _ := l.Step(7, label(t, g, "####...."), 0)
 	if got[0] != 4 {
 		t.Errorf("after a gap: event %d, want a new event 4", got[0])
 	}
@@ -88,7 +88,32 @@ func TestLinkerSplitMerge(t *testing.T) {
 func TestLinkerRejectsWrongSize(t *testing.T) {
 	g := strip(t)
 	l := NewLinker([]float64{1, 1})
-	if _, err := l.Step(0, label(t, g, "#")); err == nil {
+	if _, err := l.Step(0, label(t, g, "#"), 0); err == nil {
 		t.Error("a label image of the wrong size must be an error")
+	}
+}
+
+func TestLinkerByDistance(t *testing.T) {
+	g := strip(t)
+	// Cells are 1 degree apart on the equator: 111.2 km (derived:
+	// 2 pi R / 360 with R = 6371.0088 km). Without overlap, a jump of 2
+	// cells (222 km) links with maxKm 250, not with 200; an object that
+	// overlaps something is never linked by distance.
+	for _, c := range []struct {
+		maxKm float64
+		same  bool
+	}{{250, true}, {200, false}, {0, false}} {
+		l := NewLinker(g.CellAreas())
+		l.Step(0, label(t, g, "#......."), c.maxKm)
+		got, _ := l.Step(1, label(t, g, "..#....."), c.maxKm)
+		if (got[0] == 0) != c.same {
+			t.Errorf("maxKm %g: event %d, linked = %v, want %v", c.maxKm, got[0], got[0] == 0, c.same)
+		}
+	}
+	l := NewLinker(g.CellAreas())
+	l.Step(0, label(t, g, "##......"), 1000)
+	got, _ := l.Step(1, label(t, g, ".#..#..."), 1000)
+	if got[0] != 0 || got[1] != 1 {
+		t.Errorf("overlap first, then no distance link for a split piece: %v", got)
 	}
 }

@@ -73,6 +73,9 @@ type Evaluator struct {
 	series      []*series
 	// MaxGapHours: consecutive steps further apart than this break events.
 	MaxGapHours float64
+	// LinkKmPer6h: per class, distance linking of objects that do not
+	// overlap (see catalog.Linker), per 6 hours between steps.
+	LinkKmPer6h [K]float64
 }
 
 // NewEvaluator makes an Evaluator for a grid and regions.
@@ -144,6 +147,10 @@ func (e *Evaluator) Step(member, scenario string, t catalog.Time, ref, cand []by
 			s.cand[k].linker.Break()
 		}
 	}
+	dtHours := 0.0
+	if s.started {
+		dtHours = t.Hours - s.lastHours
+	}
 	s.started, s.lastHours = true, t.Hours
 	season := SeasonOf(t.Month)
 	step := s.steps
@@ -197,11 +204,12 @@ func (e *Evaluator) Step(member, scenario string, t catalog.Time, ref, cand []by
 		if err != nil {
 			return err
 		}
-		evR, err := e.addEvents(s.ref[k], step, season, lr)
+		maxKm := e.LinkKmPer6h[k] * dtHours / 6
+		evR, err := e.addEvents(s.ref[k], step, season, lr, maxKm)
 		if err != nil {
 			return err
 		}
-		evC, err := e.addEvents(s.cand[k], step, season, lc)
+		evC, err := e.addEvents(s.cand[k], step, season, lc, maxKm)
 		if err != nil {
 			return err
 		}
@@ -243,8 +251,8 @@ func (e *Evaluator) addQuiet(s *series, region, season int, step *[K * K]int64, 
 	}
 }
 
-func (e *Evaluator) addEvents(es *eventSet, step, season int, lab *grid.Labelling) ([]int, error) {
-	evOf, err := es.linker.Step(step, lab)
+func (e *Evaluator) addEvents(es *eventSet, step, season int, lab *grid.Labelling, maxKm float64) ([]int, error) {
+	evOf, err := es.linker.Step(step, lab, maxKm)
 	if err != nil {
 		return nil, err
 	}

@@ -59,6 +59,10 @@ func (Kind) Settings() []pipeline.Setting {
 			Doc: "reference masks in the shared mask.nc format, a pattern with {scenario} and {block} (e.g. world/{scenario}/truth_{block}.nc); give this or reference"},
 		{Name: "event_iou_min", Type: pipeline.TypeFloat, Unit: "1", Default: 0.0, Min: pipeline.Bound(0), Max: pipeline.Bound(1),
 			Doc: "two events match when their space-time IoU (overlap / union of area x steps) is at least this; 0: any shared cell at one step"},
+		{Name: "tc_link_km_per_6h", Type: pipeline.TypeFloat, Unit: "km", Default: 400.0, Min: pipeline.Bound(0),
+			Doc: "as in catalog: cyclone objects that do not overlap between steps are linked when their centroids are at most this far apart per 6 hours (from memory: a common tracking limit); 0: overlap only"},
+		{Name: "ar_link_km_per_6h", Type: pipeline.TypeFloat, Unit: "km", Default: 0.0, Min: pipeline.Bound(0),
+			Doc: "the same for river objects (0: overlap only)"},
 		{Name: "max_gap_factor", Type: pipeline.TypeFloat, Unit: "1", Default: 1.5, Min: pipeline.Bound(1),
 			Doc: "events end where consecutive time steps are further apart than this many times the usual step (missing data)"},
 	}
@@ -217,6 +221,7 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 					regions = append(regions, r)
 				}
 				ev = NewEvaluator(g, regions)
+				ev.LinkKmPer6h = [K]float64{0, job.Settings.Float("tc_link_km_per_6h"), job.Settings.Float("ar_link_km_per_6h")}
 				ref, cand = make([]byte, g.Len()), make([]byte, g.Len())
 			} else if err := catalog.SameGrid(g, cf.Grid, firstFile, p.cand); err != nil {
 				return fmt.Errorf("%w (one evaluate stage scores one grid; use one stage per grid)", err)
@@ -297,7 +302,8 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 
 // MatchingRule documents event matching (also in doc.go and scores.json).
 const MatchingRule = "Events are space-time objects: per class, 8-connected regions per step (periodic in longitude) linked " +
-	"through consecutive steps by overlap, the larger overlap keeping the identity at splits and merges (as in the catalog). " +
+	"through consecutive steps by overlap, the larger overlap keeping the identity at splits and merges, and objects that " +
+	"overlap nothing linked by centroid distance up to tc_link_km_per_6h / ar_link_km_per_6h (as in the catalog). " +
 	"A reference and a candidate event of the same class are a candidate pair when they share a cell at a step; their " +
 	"score is the space-time IoU, overlap / (area-steps of one + of the other - overlap), in km2 x steps. Pairs are " +
 	"matched one-to-one, greedily by decreasing IoU, when the IoU is at least event_iou_min. A matched reference event is " +
