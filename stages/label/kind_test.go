@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -198,5 +199,85 @@ func TestMaskCF(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(out, ARObjectsFile)); !os.IsNotExist(err) {
 		t.Errorf("ar_objects.csv written although atmospheric_river is not labelled")
+	}
+}
+
+func TestKindRelativeThreshold(t *testing.T) {
+	sc := stormScene(t)
+	for _, b := range sc.river {
+		if b != nil {
+			b.peak = 180 // below the absolute 250, above a 150 climatology
+		}
+	}
+	dir := t.TempDir()
+	fp := writeScene(t, dir, sc)
+	// Absolute mode: no river.
+	out, err := runLabel(t, fp, map[string]any{"classes": []string{ClassAR}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, steps := readMask(t, filepath.Join(out, MaskFile))
+	for s, cls := range steps {
+		for _, c := range cls {
+			if c == AtmosphericRiver {
+				t.Fatalf("step %d: AR pixel with IVT 180 < 250 in absolute mode", s)
+			}
+		}
+	}
+	// Relative mode without a climatology input: a clear error.
+	if _, err := runLabel(t, fp, map[string]any{"classes": []string{ClassAR}, "ar_threshold": ThresholdRelative}); err == nil ||
+		!strings.Contains(err.Error(), "ivt-climatology") {
+		t.Errorf("relative mode without climatology: %v", err)
+	}
+	// A climatology of 150 in January everywhere except one column of the
+	// band, where it is missing (too few samples): there the absolute 250
+	// applies and the pixel stays background.
+	n := sc.g.Len()
+	var months [12]ClimatologyMonth
+	for m := range months {
+		months[m] = ClimatologyMonth{Threshold: make([]float64, n), Samples: make([]int, n)}
+		for i := range n {
+			months[m].Threshold[i] = 150
+			months[m].Samples[i] = 100
+		}
+	}
+	holeCol := 30 // 130E, crossed by the band (110E..160E)
+	for i := range sc.g.NLat() {
+		months[0].Threshold[sc.g.Index(i, holeCol)] = math.NaN()
+	}
+	cdir := t.TempDir()
+	cpath := filepath.Join(cdir, ClimatologyFile)
+	if err := WriteClimatology(cpath, sc.g, months, ClimatologyInfo{Quantity: QIVT, Percentile: 85, Scenario: "control", Years: "1980-1989", MinSamples: 30}, ncio.Provenance{Tool: "test"}); err != nil {
+		t.Fatal(err)
+	}
+	clim := pipeline.Input{From: "clim", Kind: "ivt-climatology", Dir: cdir, Files: []string{cpath}}
+	out, err = runLabel(t, fp, map[string]any{"classes": []string{ClassAR}, "ar_threshold": ThresholdRelative}, clim)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, steps := readMask(t, filepath.Join(out, MaskFile))
+	for s, cls := range steps {
+		b := sc.river[s]
+		for k, c := range cls {
+			_, j := g.RowCol(k)
+			want := b != nil && b.inside(g)[k] && j != holeCol
+			if want != (c == AtmosphericRiver) {
+				t.Fatalf("step %d pixel %d (col %d): class %d, want AR %v", s, k, j, c, want)
+			}
+		}
+	}
+	// The floor wins over a lower climatology: with ar_ivt_floor 200 the
+	// band (180) is below max(150, 200) everywhere.
+	out, err = runLabel(t, fp, map[string]any{"classes": []string{ClassAR}, "ar_threshold": ThresholdRelative, "ar_ivt_floor": 200.0}, clim)
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, steps = readMask(t, filepath.Join(out, MaskFile))
+	for s, cls := range steps {
+		for _, c := range cls {
+			if c == AtmosphericRiver {
+				t.Fatalf("step %d: AR pixel below the 200 floor", s)
+			}
+		}
 	}
 }
