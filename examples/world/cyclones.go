@@ -77,14 +77,7 @@ func planCyclones(seed uint64, sc Scenario, yearIndex, year int, hours float64) 
 	// Stratified draws keep each season's spread of times and strengths
 	// the same, so that the trend across years is the planted one, not
 	// sampling noise. A shuffle decouples strength from time.
-	perm := make([]int, n)
-	for i := range perm {
-		perm[i] = i
-	}
-	for i := n - 1; i > 0; i-- {
-		j := int(r.next() % uint64(i+1))
-		perm[i], perm[j] = perm[j], perm[i]
-	}
+	rank := stratified(r, n)
 	lo, hi := -24.0, math.Max(hours-48, -23)
 	factor := sc.CycloneIntensity * (1 + sc.CycloneIntensityTrend*float64(yearIndex))
 	var out []*cyclonePlan
@@ -92,8 +85,9 @@ func planCyclones(seed uint64, sc Scenario, yearIndex, year int, hours float64) 
 		sr := newRNG(seed, sc.Name, fmt.Sprint(year), "cyclone", fmt.Sprint(k))
 		genesis := math.Round(lo + (hi-lo)*(float64(k)+sr.float())/float64(n))
 		// Peak deficit 20-65 hPa before the scenario factor (chosen: from
-		// strong tropical storms to category 3-4 Holland winds).
-		dp := (20 + 45*(float64(perm[k])+sr.float())/float64(n)) * 100 * factor
+		// strong tropical storms to category 3-4 Holland winds); the
+		// season's mean is exactly 42.5 hPa times the factor.
+		dp := (20 + 45*rank[k]) * 100 * factor
 		c := &cyclonePlan{
 			id:          fmt.Sprintf("%s-%d-tc%02d", sc.Name, year, k+1),
 			genesis:     genesis,
@@ -103,6 +97,27 @@ func planCyclones(seed uint64, sc Scenario, yearIndex, year int, hours float64) 
 		}
 		c.integrate(sr)
 		out = append(out, c)
+	}
+	return out
+}
+
+// stratified returns n numbers in (0, 1), one in each of the n equal
+// slices, in random order, with mean exactly 1/2: each season gets the same
+// spread of strengths, so yearly means follow the planted trend exactly.
+func stratified(r *rng, n int) []float64 {
+	u := make([]float64, n)
+	var mean float64
+	for i := range u {
+		u[i] = r.float()
+		mean += u[i] / float64(n)
+	}
+	out := make([]float64, n)
+	for i := range out {
+		out[i] = (float64(i) + 0.5 + 0.5*(u[i]-mean)) / float64(n)
+	}
+	for i := n - 1; i > 0; i-- {
+		j := int(r.next() % uint64(i+1))
+		out[i], out[j] = out[j], out[i]
 	}
 	return out
 }

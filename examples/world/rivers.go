@@ -52,14 +52,7 @@ func planRivers(seed uint64, sc Scenario, yearIndex, year int, hours float64) []
 		return nil
 	}
 	r := newRNG(seed, sc.Name, fmt.Sprint(year), "rivers")
-	perm := make([]int, n)
-	for i := range perm {
-		perm[i] = i
-	}
-	for i := n - 1; i > 0; i-- {
-		j := int(r.next() % uint64(i+1))
-		perm[i], perm[j] = perm[j], perm[i]
-	}
+	rank := stratified(r, n)
 	lo, hi := -12.0, math.Max(hours-36, -11)
 	factor := sc.RiverMoisture * (1 + sc.RiverMoistureTrend*float64(yearIndex))
 	var out []*riverPlan
@@ -68,7 +61,7 @@ func planRivers(seed uint64, sc Scenario, yearIndex, year int, hours float64) []
 		// Stratified strength: 4.5-7.5 g/kg before the scenario factor
 		// (chosen so core IVT spans roughly the AR scale's weak to strong
 		// classes).
-		strength := 4.5e-3 + 3e-3*(float64(perm[k])+sr.float())/float64(n)
+		strength := 4.5e-3 + 3e-3*rank[k]
 		p := &riverPlan{
 			id:       fmt.Sprintf("%s-%d-ar%02d", sc.Name, year, k+1),
 			start:    math.Round(lo + (hi-lo)*(float64(k)+sr.float())/float64(n)),
