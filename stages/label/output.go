@@ -29,7 +29,7 @@ const Research = "Heuristic labels from published threshold criteria: research o
 // Provenance builds the history of an output from the job: kind, version,
 // settings (canonical text, sorted by name) and inputs named by their
 // position in the campaign (never by absolute path, which would make
-// identical runs differ).
+// identical runs differ), sorted.
 func Provenance(kind string, version int, job *pipeline.Job) ncio.Provenance {
 	p := ncio.Provenance{Tool: "squall", Kind: kind, KindVersion: strconv.Itoa(version), Settings: map[string]string{}}
 	for k, v := range job.Settings {
@@ -49,6 +49,9 @@ func Provenance(kind string, version int, job *pipeline.Job) ncio.Provenance {
 		sort.Strings(names)
 		p.Inputs = append(p.Inputs, ncio.InputDigest{Name: id + ":" + strings.Join(names, ","), Digest: "(digest in the run record)"})
 	}
+	// Sorted, so that the order in which the engine lists inputs does not
+	// change the bytes of an output.
+	sort.Slice(p.Inputs, func(a, b int) bool { return p.Inputs[a].Name < p.Inputs[b].Name })
 	return p
 }
 
