@@ -31,7 +31,7 @@ type testFile struct {
 	ivt      [][]float32
 }
 
-func (tf testFile) write(t *testing.T, path string) {
+func (tf testFile) write(t testing.TB, path string) {
 	t.Helper()
 	w, err := ncio.Create(path)
 	if err != nil {
