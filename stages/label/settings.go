@@ -55,6 +55,7 @@ type TCConfig struct {
 	MaxSpeed       float64 // m per hour between matched centres
 	MaxGapSteps    int     // missing steps allowed inside a track
 	MinLifetime    float64 // hours from first to last point
+	MaskWind       float64 // m s-1; 0 = the detection threshold
 	MaskMaxRadius  float64 // m
 	MinSLPDepth    float64 // Pa below the box mean; 0 = off
 	SearchRadiusPt int     // half-width of the box, (BoxPoints-1)/2
@@ -108,7 +109,7 @@ func settings() []pipeline.Setting {
 			Doc: "Least 850 hPa relative vorticity in the box, positive in the northern hemisphere and negative (below -value) in the southern. " +
 				"Default 3.5e-5 s-1 (Bengtsson et al. 1995; Vitart et al. 1997; confirmed)."},
 		{Name: "tc_wind_min", Type: pipeline.TypeFloat, Unit: "m s-1", Default: 0.0, Min: b(0), Sweep: true,
-			Doc: "Least 10 m wind speed in the box, also the wind that outlines the mask. 0 (default) scales it with the grid spacing d: " +
+			Doc: "Least 10 m wind speed in the box. 0 (default) scales it with the grid spacing d: " +
 				"17.5 - 7.5 * min(d, 300 km)/300 km m s-1, the straight line through the two values of Walsh et al. (2007, J. Climate 20; confirmed): 17.5 m s-1 for observations (d = 0) and about 10 m s-1 at 300 km. " +
 				"d is the side of a square with the area of an equatorial cell, R*sqrt(dlat*dlon) in radians. The interpolation is ours; Walsh et al. tabulate the dependence."},
 		{Name: "tc_warm_core_min", Type: pipeline.TypeFloat, Unit: "K", Default: 3.0, Min: b(0), Sweep: true,
@@ -124,6 +125,8 @@ func settings() []pipeline.Setting {
 		{Name: "tc_min_lifetime", Type: pipeline.TypeFloat, Unit: "h", Default: 48.0, Min: b(0), Sweep: true,
 			Doc: "Least time from a track's first to its last point. Default 48 h (duration >= 2 days, Bengtsson et al. 1995; Vitart et al. 1997; confirmed). " +
 				"Tracks are cut at the block (year) boundary, so a storm crossing the new year may be shortened."},
+		{Name: "tc_mask_wind", Type: pipeline.TypeFloat, Unit: "m s-1", Default: 34 * 1852.0 / 3600, Min: b(0),
+			Doc: "10 m wind that outlines a storm's mask: the gale radius R34, the usual measure of a tropical cyclone's size. Default 34 kt = 17.49 m s-1, the tropical-storm threshold (NWS, confirmed). 0 uses the detection wind threshold (tc_wind_min or its grid-scaled value)."},
 		{Name: "tc_mask_max_radius", Type: pipeline.TypeFloat, Unit: "km", Default: 500.0, Min: b(10), Max: b(3000),
 			Doc: "Cap on the distance from a track point within which pixels are labelled tropical_cyclone. Default 500 km, from memory (gale-force wind radii rarely exceed it)."},
 		{Name: "tc_min_slp_depth", Type: pipeline.TypeFloat, Unit: "Pa", Default: 0.0, Min: b(0),
@@ -191,6 +194,7 @@ func ParseConfig(v pipeline.Values) (Config, error) {
 		MaxSpeed:       v.Float("tc_max_speed") * 1000,
 		MaxGapSteps:    v.Int("tc_max_gap_steps"),
 		MinLifetime:    v.Float("tc_min_lifetime"),
+		MaskWind:       v.Float("tc_mask_wind"),
 		MaskMaxRadius:  v.Float("tc_mask_max_radius") * 1000,
 		MinSLPDepth:    v.Float("tc_min_slp_depth"),
 	}

@@ -55,8 +55,12 @@ func (r *Result) write(dir string, fl *Fields, prov ncio.Provenance) (err error)
 			if err != nil {
 				return err
 			}
+			maskWind := r.cfg.TCConf.MaskWind
+			if maskWind == 0 {
+				maskWind = r.windMin
+			}
 			for _, p := range points[s] {
-				TCFootprint(g, wind, p, r.windMin, r.cfg.TCConf.MaskMaxRadius, tcMask)
+				TCFootprint(g, wind, p, maskWind, r.cfg.TCConf.MaskMaxRadius, tcMask)
 			}
 		}
 		if r.ar != nil {
