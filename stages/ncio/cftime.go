@@ -161,8 +161,17 @@ func (t CFTime) String() string {
 }
 
 // DayOfYear returns the day of the year, 1 on 1 January, in calendar c.
+// As in cftime, it is the date's position in the month table, so in the
+// standard calendar 1582-10-15 is day 288 although ten days were skipped.
 func (t CFTime) DayOfYear(c Calendar) int {
-	return int(c.dayNumber(t.Year, t.Month, t.Day)-c.dayNumber(t.Year, 1, 1)) + 1
+	if c == Day360 {
+		return (t.Month-1)*30 + t.Day
+	}
+	l := 0
+	if c.IsLeap(t.Year) {
+		l = 1
+	}
+	return cumDays[l][t.Month-1] + t.Day
 }
 
 // Valid reports whether t is a date of calendar c (e.g. 30 February exists

@@ -75,12 +75,12 @@ func NewConverter(from, to string) (Converter, error) {
 	// Water equivalence: 1 kg m-2 of liquid water is 1 mm deep
 	// (density 1000 kg m-3), so mass per area and depth convert.
 	water := dims{kg: 1, m: -3}
-	if a.dim.sub(b.dim) == water {
-		c.Scale = a.scale / b.scale * 1000
+	if a.dim.sub(b.dim) == water { // mass per area to depth: divide by density
+		c.Scale = a.scale / b.scale / 1000
 		return c, nil
 	}
-	if b.dim.sub(a.dim) == water {
-		c.Scale = a.scale / b.scale / 1000
+	if b.dim.sub(a.dim) == water { // depth to mass per area
+		c.Scale = a.scale / b.scale * 1000
 		return c, nil
 	}
 	return c, fmt.Errorf("units %q (%s) and %q (%s) are not compatible", from, a.dim, to, b.dim)
