@@ -449,3 +449,30 @@ func TestKindBadInputs(t *testing.T) {
 		}
 	}
 }
+
+// TestKindLandMaskSetting routes a land mask file through the kind: the
+// real 1-degree landsea.nc (Debian libncarg-data) regridded by nearest
+// neighbour onto the 2-degree test world, or refused when asked to.
+func TestKindLandMaskSetting(t *testing.T) {
+	needLandsea(t)
+	in := smallWorld(t, t.TempDir())
+	in = append(in, pipeline.Input{From: "land_mask", Kind: "file", Files: []string{landsea}})
+	set := map[string]any{"land_mask_variable": "LSMASK", "land_values": []float64{1, 2, 3, 4}, "land_mask_regrid": RegridRefuse}
+	if _, err := runCatalog(t, in, set); err == nil || !strings.Contains(err.Error(), "land_mask_regrid") {
+		t.Errorf("refused regrid: error %v", err)
+	}
+	set["land_mask_regrid"] = RegridNearest
+	out, err := runCatalog(t, in, set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The river (36-44N, cells 197E to 235E, i.e. 163W-125W) stays over
+	// the North Pacific: the coast of northern California near 40N lies
+	// at about 124W (common knowledge of geography), east of its last
+	// cells; this is close to the coast, and the file agrees.
+	for _, e := range readCSV(t, filepath.Join(out, EventsFile)) {
+		if e["class"] == "atmospheric_river" && e["landfall"] != "false" {
+			t.Errorf("river over the Pacific made landfall at %s %s", e["landfall_lat"], e["landfall_lon"])
+		}
+	}
+}
