@@ -262,7 +262,7 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 						b[j] = int32(Binary16Fill)
 						continue
 					}
-					h := Float16Bits(float32(x))
+					h := Float16BitsOf64(x)
 					b[j] = int32(int16(h))
 					d := math.Abs(float64(Float16Value(h)) - x)
 					e[0] = math.Max(e[0], d)

@@ -6,18 +6,23 @@ import "math"
 // nearest, ties to even, as the standard's default rounding and numpy's
 // float16 do) and returns its bit pattern. Magnitudes of 65520 and above
 // become infinity; NaN becomes the quiet NaN 0x7e00 with f's sign.
-func Float16Bits(f float32) uint16 {
-	b := math.Float32bits(f)
-	sign := uint16(b>>16) & 0x8000
-	exp := int(b>>23) & 0xff
-	mant := b & 0x7fffff
-	if exp == 0xff {
+func Float16Bits(f float32) uint16 { return Float16BitsOf64(float64(f)) }
+
+// Float16BitsOf64 is Float16Bits for a float64, rounded once: going
+// through float32 first would round twice and differ from a direct
+// conversion on rare ties.
+func Float16BitsOf64(f float64) uint16 {
+	b := math.Float64bits(f)
+	sign := uint16(b>>48) & 0x8000
+	exp := int(b>>52) & 0x7ff
+	mant := b & (1<<52 - 1)
+	if exp == 0x7ff {
 		if mant != 0 {
 			return sign | 0x7e00
 		}
 		return sign | 0x7c00
 	}
-	e := exp - 127 + 15 // biased half exponent
+	e := exp - 1023 + 15 // biased half exponent
 	if e >= 0x1f {
 		return sign | 0x7c00
 	}
@@ -26,19 +31,19 @@ func Float16Bits(f float32) uint16 {
 		if e < -10 {
 			return sign // below half the smallest subnormal
 		}
-		m := mant | 0x800000
-		s := uint(14 - e)
+		m := mant | 1<<52
+		s := uint(43 - e)
 		h := m >> s
 		rem := m & (1<<s - 1)
-		half := uint32(1) << (s - 1)
+		half := uint64(1) << (s - 1)
 		if rem > half || (rem == half && h&1 == 1) {
 			h++ // may carry into the smallest normal, which is correct
 		}
 		return sign | uint16(h)
 	}
-	h := uint32(e)<<10 | mant>>13
-	rem := mant & 0x1fff
-	if rem > 0x1000 || (rem == 0x1000 && h&1 == 1) {
+	h := uint64(e)<<10 | mant>>42
+	rem := mant & (1<<42 - 1)
+	if rem > 1<<41 || (rem == 1<<41 && h&1 == 1) {
 		h++ // a carry into the exponent is correct, up to infinity
 	}
 	return sign | uint16(h)

@@ -109,3 +109,36 @@ func TestFloat16RoundTrip(t *testing.T) {
 		}
 	}
 }
+
+// TestFloat16Of64AgainstNumpy: float64 -> binary16 in one rounding, as
+// numpy's astype(float16) on float64 does; a detour through float32 would
+// round twice (the test includes such ties).
+func TestFloat16Of64AgainstNumpy(t *testing.T) {
+	havePython(t, "numpy")
+	dir := t.TempDir()
+	rng := rand.New(rand.NewPCG(64, 16)) // fixed seed
+	in := []float64{1 + 1.0/2048 + 1.0/(1<<30), -(1 + 3.0/2048 - 1.0/(1<<40)), 5.960464477539063e-08, 2.98023223876953125e-08 * (1 + 1e-12)}
+	for i := 0; i < 1<<18; i++ {
+		in = append(in, math.Ldexp(rng.Float64()+0.5, rng.IntN(44)-28)*float64(1-2*rng.IntN(2)))
+	}
+	var buf bytes.Buffer
+	binary.Write(&buf, binary.LittleEndian, in)
+	inPath, outPath := filepath.Join(dir, "in.f64"), filepath.Join(dir, "out.u16")
+	os.WriteFile(inPath, buf.Bytes(), 0o644)
+	script := `
+import numpy as np, sys
+with np.errstate(over='ignore'):
+    np.fromfile(sys.argv[1], dtype='<f8').astype('<f2').view('<u2').tofile(sys.argv[2])
+`
+	if out, err := exec.Command(referencePython, "-c", script, inPath, outPath).CombinedOutput(); err != nil {
+		t.Fatalf("numpy: %v\n%s", err, out)
+	}
+	raw, _ := os.ReadFile(outPath)
+	want := make([]uint16, len(in))
+	binary.Read(bytes.NewReader(raw), binary.LittleEndian, want)
+	for i, x := range in {
+		if got := Float16BitsOf64(x); got != want[i] {
+			t.Fatalf("Float16BitsOf64(%.17g) = %#04x, numpy %#04x", x, got, want[i])
+		}
+	}
+}
