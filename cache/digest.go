@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"sync"
 
 	"github.com/zeebo/blake3"
 )
@@ -52,11 +53,14 @@ func Sum(b []byte) Digest {
 	return Digest(blake3.Sum256(b))
 }
 
+var bufPool = sync.Pool{New: func() any { b := make([]byte, 1<<20); return &b }}
+
 // HashReader digests a stream and returns its length.
 func HashReader(r io.Reader) (Digest, int64, error) {
 	h := blake3.New()
-	buf := make([]byte, 1<<20)
-	n, err := io.CopyBuffer(h, r, buf)
+	bp := bufPool.Get().(*[]byte)
+	defer bufPool.Put(bp)
+	n, err := io.CopyBuffer(h, r, *bp)
 	if err != nil {
 		return Digest{}, n, err
 	}

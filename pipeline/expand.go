@@ -137,24 +137,24 @@ func (c *Campaign) Expand() ([]*Instance, error) {
 		}
 		targets := targetsFor(st.Kind.Fan(), srcs)
 		members := sweepMembers(st)
+		idx := make([]*sourceIndex, len(srcs))
+		for i, s := range srcs {
+			idx[i] = newSourceIndex(s)
+		}
 		for _, t := range targets {
 			var ups []*Instance
 			var files []Input
-			for i, s := range srcs {
-				n := 0
-				for _, x := range s {
-					if !compatible(x.c, t) {
-						continue
-					}
-					n++
+			for i := range srcs {
+				matched := idx[i].compatible(t)
+				if len(matched) == 0 {
+					return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has nothing for %s", c.File, st.Name, srcNames[i], describeCoord(t))}
+				}
+				for _, x := range matched {
 					if x.instance != nil {
 						ups = append(ups, x.instance)
 					} else {
 						files = append(files, *x.raw)
 					}
-				}
-				if n == 0 {
-					return nil, &InvalidError{fmt.Errorf("%s: stage %q: input %q has nothing for %s", c.File, st.Name, srcNames[i], describeCoord(t))}
 				}
 			}
 			for _, m := range members {
@@ -226,16 +226,20 @@ func targetsFor(fan Fan, srcs [][]source) []coord {
 		}
 	}
 	// Keep the finest coordinates: coarser ones are broadcast into them.
-	var out []coord
+	// A coordinate is coarser than another if it is one of that one's
+	// generalisations (some set dimensions cleared): 7 per coordinate, so
+	// this is linear in the number of input instances.
+	general := map[coord]bool{}
 	for _, a := range u {
-		finest := true
-		for _, b := range u {
-			if a != b && covers(a, b) {
-				finest = false
-				break
+		for _, g := range generalisations(a) {
+			if g != a {
+				general[g] = true
 			}
 		}
-		if finest {
+	}
+	var out []coord
+	for _, a := range u {
+		if !general[a] {
 			out = append(out, a)
 		}
 	}
@@ -308,7 +312,9 @@ func (c *Campaign) patternFiles(inst *Instance) ([]Input, error) {
 		}
 		type sb struct{ sc, blk string }
 		var pairs []sb
-		if strings.Contains(pat, "{scenario}") || strings.Contains(pat, "{block}") {
+		if inst.Scenario != "" && inst.Block != "" {
+			pairs = []sb{{inst.Scenario, inst.Block}}
+		} else if strings.Contains(pat, "{scenario}") || strings.Contains(pat, "{block}") {
 			seen := map[sb]bool{}
 			for _, sc := range c.Scenarios {
 				for _, b := range sc.Blocks() {
@@ -334,4 +340,116 @@ func (c *Campaign) patternFiles(inst *Instance) ([]Input, error) {
 		}
 	}
 	return out, nil
+}
+
+// generalisations lists a coordinate and every coarser one covering it.
+func generalisations(a coord) []coord {
+	out := make([]coord, 0, 8)
+	for mask := 0; mask < 8; mask++ {
+		g := a
+		if mask&1 != 0 {
+			g.sc = ""
+		}
+		if mask&2 != 0 {
+			g.blk = ""
+		}
+		if mask&4 != 0 {
+			g.mem = ""
+		}
+		out = append(out, g)
+	}
+	return out
+}
+
+// sourceIndex finds the instances of one input compatible with a target
+// without scanning them all: coarser-or-equal ones through the target's
+// generalisations, finer ones through partial keys.
+type sourceIndex struct {
+	all   []source
+	exact map[coord][]source
+	bySB  map[coord][]source // key has mem cleared
+	byS   map[string][]source
+	pos   map[source]int // position in all, built on first coarse lookup
+}
+
+func newSourceIndex(srcs []source) *sourceIndex {
+	ix := &sourceIndex{all: srcs, exact: map[coord][]source{}, bySB: map[coord][]source{}, byS: map[string][]source{}}
+	for _, x := range srcs {
+		ix.exact[x.c] = append(ix.exact[x.c], x)
+		if x.c.sc != "" {
+			ix.byS[x.c.sc] = append(ix.byS[x.c.sc], x)
+			if x.c.blk != "" {
+				k := x.c
+				k.mem = ""
+				ix.bySB[k] = append(ix.bySB[k], x)
+			}
+		}
+	}
+	return ix
+}
+
+func (ix *sourceIndex) compatible(t coord) []source {
+	var cand []source
+	switch {
+	case t.sc == "":
+		cand = ix.all
+	case t.blk == "":
+		cand = append(cand, ix.byS[t.sc]...)
+		cand = append(cand, ix.exact[coord{}]...)
+		for _, g := range []coord{{"", "", t.mem}} {
+			if g != (coord{}) {
+				cand = append(cand, ix.exact[g]...)
+			}
+		}
+		// Sources with an empty scenario but a block are compatible too.
+		for c, xs := range ix.exact {
+			if c.sc == "" && c.blk != "" {
+				cand = append(cand, xs...)
+			}
+		}
+	case t.mem == "":
+		cand = append(cand, ix.bySB[coord{t.sc, t.blk, ""}]...)
+		for _, g := range generalisations(coord{t.sc, t.blk, ""}) {
+			if g.blk == "" || g.sc == "" {
+				cand = append(cand, ix.exact[g]...)
+			}
+		}
+		for c, xs := range ix.exact {
+			if c.sc == t.sc && c.blk == "" && c.mem != "" {
+				cand = append(cand, xs...)
+			}
+		}
+	default:
+		for _, g := range generalisations(t) {
+			cand = append(cand, ix.exact[g]...)
+		}
+	}
+	if t.sc != "" && t.blk != "" && t.mem != "" {
+		// The generalisations are distinct, so no source repeats.
+		return cand
+	}
+	// Coarse targets (fan-ins) are few: filter and de-duplicate, keeping
+	// the inputs in their original order so keys and jobs are stable.
+	if ix.pos == nil {
+		ix.pos = make(map[source]int, len(ix.all))
+		for i, x := range ix.all {
+			ix.pos[x] = i
+		}
+	}
+	keep := map[int]bool{}
+	for _, x := range cand {
+		if compatible(x.c, t) {
+			keep[ix.pos[x]] = true
+		}
+	}
+	order := make([]int, 0, len(keep))
+	for i := range keep {
+		order = append(order, i)
+	}
+	sort.Ints(order)
+	out := make([]source, len(order))
+	for i, k := range order {
+		out[i] = ix.all[k]
+	}
+	return out
 }

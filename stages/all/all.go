@@ -4,9 +4,14 @@ package all
 
 import (
 	"github.com/squall-climate/squall/pipeline"
+	"github.com/squall-climate/squall/stages/catalog"
+	"github.com/squall-climate/squall/stages/evaluate"
 )
 
 // Registry returns the stage kinds of squall.
 func Registry() *pipeline.Registry {
-	return pipeline.NewRegistry()
+	return pipeline.NewRegistry(
+		catalog.Kind{},
+		evaluate.Kind{},
+	)
 }
