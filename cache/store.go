@@ -96,6 +96,9 @@ func Open(dir string, opt Options) (*Store, error) {
 }
 
 func openIndex(path string, readOnly bool) (db *bolt.DB, err error) {
+	if err := precheckIndex(path); err != nil {
+		return nil, &CorruptError{Path: path, Err: err}
+	}
 	// bbolt panics on some damaged files instead of returning an error;
 	// a damaged index must reach the user as a sentence, not a stack trace.
 	defer func() {
