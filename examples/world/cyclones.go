@@ -84,16 +84,16 @@ func planCyclones(seed uint64, sc Scenario, yearIndex, year int, hours float64) 
 	for k := 0; k < n; k++ {
 		sr := newRNG(seed, sc.Name, fmt.Sprint(year), "cyclone", fmt.Sprint(k))
 		genesis := math.Round(lo + (hi-lo)*(float64(k)+sr.float())/float64(n))
-		// Peak deficit 20-65 hPa before the scenario factor (chosen: from
+		// Peak deficit 20-75 hPa before the scenario factor (chosen: from
 		// strong tropical storms to category 3-4 Holland winds); the
-		// season's mean is exactly 42.5 hPa times the factor.
-		dp := (20 + 45*rank[k]) * 100 * factor
+		// season's mean is exactly 47.5 hPa times the factor.
+		dp := (20 + 55*rank[k]) * 100 * factor
 		c := &cyclonePlan{
 			id:          fmt.Sprintf("%s-%d-tc%02d", sc.Name, year, k+1),
 			genesis:     genesis,
 			peakDeficit: dp,
 			rmax0:       sr.uniform(55e3, 100e3),
-			b:           sr.uniform(1.3, 1.8),
+			b:           sr.uniform(1.3, 2.0),
 		}
 		c.integrate(sr)
 		out = append(out, c)
