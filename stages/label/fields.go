@@ -82,7 +82,7 @@ func (fl *Fields) load() error {
 	}
 	g, err := grid.New(ng.Lat, ng.Lon)
 	if err != nil {
-		return fmt.Errorf("%s: not a regular latitude-longitude grid, which the label stage needs (regrid first): %w", path, err)
+		return fmt.Errorf("%s: not a regular latitude-longitude grid, which the label stage needs: %w", path, err)
 	}
 	fl.Grid = g
 	ta, err := fl.f.Times()
