@@ -90,7 +90,9 @@ func TestARFromLevels(t *testing.T) {
 	}
 }
 
-func hPaName(p float64) string { return strings.TrimSuffix(strings.ReplaceAll(hPa(p), " hPa", ""), ".") }
+func hPaName(p float64) string {
+	return strings.TrimSuffix(strings.ReplaceAll(hPa(p), " hPa", ""), ".")
+}
 
 // TestARFromIWV: only column water vapour: 30 kg m-2 in the band, 10
 // outside, against the 20 kg m-2 threshold (Ralph et al. 2004, from
