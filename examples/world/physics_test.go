@@ -411,3 +411,64 @@ func TestValidate(t *testing.T) {
 		t.Error("unknown preset accepted")
 	}
 }
+
+// Options that change only the layout leave the atmosphere alone: with
+// BelowSurface "fill" the pressure levels below the ground (and only
+// those) hold _FillValue, and LatDescending writes the same fields north
+// to south.
+func TestLayoutOptions(t *testing.T) {
+	base := mustPreset("tiny")
+	base.Days = 1
+	base.Scenarios = base.Scenarios[:1]
+	base.Scenarios[0].LastYear = base.Scenarios[0].FirstYear
+	run := func(name string, edit func(*Options)) string {
+		o := base
+		o.Dir = filepath.Join(testRoot, name)
+		edit(&o)
+		if _, err := Generate(context.Background(), o); err != nil {
+			t.Fatal(err)
+		}
+		return filepath.Join(o.Dir, "control", "fields_1991.nc")
+	}
+	plain := run("layout-plain", func(*Options) {})
+	fill := run("layout-fill", func(o *Options) { o.BelowSurface = "fill" })
+	north := run("layout-north", func(o *Options) { o.LatDescending = true })
+
+	ps := ncioRead(t, plain, "surface_air_pressure")
+	ta := ncioRead(t, plain, "air_temperature")
+	taFill := ncioRead(t, fill, "air_temperature")
+	npts := len(ps) / 4
+	var below int
+	for st := 0; st < 4; st++ {
+		for l, p := range PressureLevels {
+			for k := 0; k < npts; k++ {
+				i := (st*len(PressureLevels)+l)*npts + k
+				under := p > float64(ps[st*npts+k])
+				if under {
+					below++
+				}
+				if isNaN := math.IsNaN(float64(taFill[i])); isNaN != under || (!under && taFill[i] != ta[i]) {
+					t.Fatalf("step %d level %g point %d: ps %g, filled value %g, plain %g", st, p, k, ps[st*npts+k], taFill[i], ta[i])
+				}
+			}
+		}
+	}
+	if below == 0 {
+		t.Error("no pressure level below the ground: the fill option was not exercised")
+	}
+
+	g := newGrid(&base)
+	nlat, nlon := len(g.lats), len(g.lons)
+	taNorth := ncioRead(t, north, "air_temperature")
+	for blk := 0; blk < len(ta)/npts; blk++ {
+		for i := 0; i < nlat; i++ {
+			for j := 0; j < nlon; j++ {
+				a := ta[blk*npts+i*nlon+j]
+				b := taNorth[blk*npts+(nlat-1-i)*nlon+j]
+				if a != b {
+					t.Fatalf("latitude order changed the field: %g vs %g", a, b)
+				}
+			}
+		}
+	}
+}
