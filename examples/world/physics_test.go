@@ -472,3 +472,17 @@ func TestLayoutOptions(t *testing.T) {
 		}
 	}
 }
+
+func TestGenerateCancelled(t *testing.T) {
+	o := mustPreset("tiny")
+	o.Dir = filepath.Join(testRoot, "cancelled")
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := Generate(ctx, o); err == nil {
+		t.Fatal("a cancelled generation succeeded")
+	}
+	partial, _ := filepath.Glob(filepath.Join(o.Dir, "*", ".*.partial"))
+	if len(partial) > 0 {
+		t.Errorf("unfinished files left behind: %v", partial)
+	}
+}
