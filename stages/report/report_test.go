@@ -325,9 +325,8 @@ func TestBrokenOutputBecomesANote(t *testing.T) {
 	}
 }
 
-// BenchmarkWrite: a report over the fixture plus a trends output of the
-// trends benchmark's shape is too slow to build here; this measures the
-// fixture (2 scenarios x 12 years, 3 regions) end to end.
+// BenchmarkWrite measures the small fixture (2 scenarios x 12 years, 3
+// regions, label masks, evaluation) end to end.
 //
 //	go test ./stages/report -run '^$' -bench Write
 func BenchmarkWrite(b *testing.B) {
@@ -336,6 +335,53 @@ func BenchmarkWrite(b *testing.B) {
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		if err := Write(path, f.in); err != nil {
+			b.Fatal(err)
+		}
+	}
+	st, _ := os.Stat(path)
+	b.ReportMetric(b.Elapsed().Seconds()/float64(b.N), "s/report")
+	b.ReportMetric(float64(st.Size())/1e6, "MB/page")
+}
+
+// BenchmarkWriteLarge: the report for a campaign of the trends
+// benchmark's shape, 5 scenarios x 100 years x 20 regions (plus the whole
+// domain): 42 trend figures of 5 panels, 18 maps, 1050 trend rows. The
+// catalogs and the trends run are set up outside the timer.
+//
+//	go test ./stages/report -run '^$' -bench WriteLarge -benchtime 3x
+func BenchmarkWriteLarge(b *testing.B) {
+	root := b.TempDir()
+	rng := rand.New(rand.NewPCG(5, 6))
+	in := Input{Campaign: "large", Record: "{}"}
+	job := &pipeline.Job{OutDir: filepath.Join(root, "trends"), Settings: pipeline.Values{}}
+	for _, s := range (trends.Kind{}).Settings() {
+		job.Settings[s.Name] = s.Default
+	}
+	job.Settings["bootstrap_resamples"] = 200
+	for k := 0; k < 20; k++ {
+		lon0 := 100 + 6*float64(k)
+		job.Campaign.Regions = append(job.Campaign.Regions, pipeline.Region{Name: fmt.Sprintf("region_%02d", k),
+			Box: &pipeline.Box{LatMin: 0, LatMax: 40, LonMin: lon0, LonMax: lon0 + 15}})
+	}
+	for s := 0; s < 5; s++ {
+		name := fmt.Sprintf("s%d", s)
+		first := 1900 + 100*s
+		dir := filepath.Join(root, "events", name)
+		files := writeCatalog(b, dir, name, first, 100, func(i int) int { return 3 + (i*s)/60 }, rng)
+		job.Inputs = append(job.Inputs, pipeline.Input{From: "events", Kind: "catalog", Scenario: name, Dir: dir, Files: files})
+		job.Campaign.Scenarios = append(job.Campaign.Scenarios, pipeline.ScenarioInfo{Name: name, FirstYear: first, LastYear: first + 99})
+		in.Scenarios = append(in.Scenarios, Scenario{Name: name, FirstYear: first, LastYear: first + 99})
+		in.Outputs = append(in.Outputs, Output{Stage: "events", Kind: "catalog", Scenario: name, Dir: dir})
+	}
+	os.MkdirAll(job.OutDir, 0o755)
+	if err := (trends.Kind{}).Run(context.Background(), job); err != nil {
+		b.Fatal(err)
+	}
+	in.Outputs = append(in.Outputs, Output{Stage: "change", Kind: "trends", Dir: job.OutDir})
+	path := filepath.Join(root, "report.html")
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if err := Write(path, in); err != nil {
 			b.Fatal(err)
 		}
 	}
