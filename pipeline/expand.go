@@ -370,11 +370,21 @@ type sourceIndex struct {
 	bySB  map[coord][]source // key has mem cleared
 	byS   map[string][]source
 	pos   map[source]int // position in all, built on first coarse lookup
+	// scMembers: scenario-wide sources of one member (block unset);
+	// blockOnly: sources with a block but no scenario.
+	scMembers map[string][]source
+	blockOnly []source
 }
 
 func newSourceIndex(srcs []source) *sourceIndex {
-	ix := &sourceIndex{all: srcs, exact: map[coord][]source{}, bySB: map[coord][]source{}, byS: map[string][]source{}}
+	ix := &sourceIndex{all: srcs, exact: map[coord][]source{}, bySB: map[coord][]source{}, byS: map[string][]source{}, scMembers: map[string][]source{}}
 	for _, x := range srcs {
+		if x.c.sc != "" && x.c.blk == "" && x.c.mem != "" {
+			ix.scMembers[x.c.sc] = append(ix.scMembers[x.c.sc], x)
+		}
+		if x.c.sc == "" && x.c.blk != "" {
+			ix.blockOnly = append(ix.blockOnly, x)
+		}
 		ix.exact[x.c] = append(ix.exact[x.c], x)
 		if x.c.sc != "" {
 			ix.byS[x.c.sc] = append(ix.byS[x.c.sc], x)
@@ -402,29 +412,30 @@ func (ix *sourceIndex) compatible(t coord) []source {
 			}
 		}
 		// Sources with an empty scenario but a block are compatible too.
-		for c, xs := range ix.exact {
-			if c.sc == "" && c.blk != "" {
-				cand = append(cand, xs...)
-			}
-		}
+		cand = append(cand, ix.blockOnly...)
 	case t.mem == "":
+		// Distinct groups: same (scenario, block) with any member; the
+		// coarser generalisations; scenario-wide members.
 		cand = append(cand, ix.bySB[coord{t.sc, t.blk, ""}]...)
 		for _, g := range generalisations(coord{t.sc, t.blk, ""}) {
 			if g.blk == "" || g.sc == "" {
 				cand = append(cand, ix.exact[g]...)
 			}
 		}
-		for c, xs := range ix.exact {
-			if c.sc == t.sc && c.blk == "" && c.mem != "" {
-				cand = append(cand, xs...)
+		cand = append(cand, ix.scMembers[t.sc]...)
+		out := cand[:0:0]
+		for _, x := range cand {
+			if compatible(x.c, t) {
+				out = append(out, x)
 			}
 		}
+		return out
 	default:
 		for _, g := range generalisations(t) {
 			cand = append(cand, ix.exact[g]...)
 		}
 	}
-	if t.sc != "" && t.blk != "" && t.mem != "" {
+	if t.sc != "" && t.blk != "" {
 		// The generalisations are distinct, so no source repeats.
 		return cand
 	}
