@@ -52,10 +52,55 @@ import "C"
 
 import (
 	"fmt"
+	"sync"
 	"unsafe"
 
 	"github.com/fhs/go-netcdf/netcdf"
 )
+
+// ncMu serialises every call into libnetcdf: the library is not
+// thread-safe, and this turns accidental concurrent use from memory
+// corruption into waiting. Callers should still do I/O on one goroutine;
+// the lock is a safety net, not a way to get parallel I/O.
+var ncMu sync.Mutex
+
+// Wrappers for the calls made through the go-netcdf binding, under ncMu.
+
+func dsNVars(ds netcdf.Dataset) (int, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return ds.NVars()
+}
+
+func dsClose(ds netcdf.Dataset) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return ds.Close()
+}
+
+func dsEndDef(ds netcdf.Dataset) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return ds.EndDef()
+}
+
+func dsAddDim(ds netcdf.Dataset, name string, n int) (netcdf.Dim, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return ds.AddDim(name, uint64(n))
+}
+
+func dsAddVar(ds netcdf.Dataset, name string, t Type, dims []netcdf.Dim) (netcdf.Var, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return ds.AddVar(name, netcdf.Type(t), dims)
+}
+
+func varCompression(v netcdf.Var) (shuffle, deflate bool, level int, err error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
+	return v.Compression()
+}
 
 func ncErr(code C.int) error {
 	if code == C.NC_NOERR {
@@ -85,6 +130,8 @@ func sizePtr(xs []C.size_t) *C.size_t {
 
 // openRead opens a file read-only.
 func openRead(path string) (netcdf.Dataset, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cpath := C.CString(path)
 	defer C.free(unsafe.Pointer(cpath))
 	var id C.int
@@ -96,6 +143,8 @@ func openRead(path string) (netcdf.Dataset, error) {
 
 // createNetCDF4 creates (clobbers) a netCDF-4 file.
 func createNetCDF4(path string) (netcdf.Dataset, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cpath := C.CString(path)
 	defer C.free(unsafe.Pointer(cpath))
 	var id C.int
@@ -106,6 +155,8 @@ func createNetCDF4(path string) (netcdf.Dataset, error) {
 }
 
 func varID(ncid netcdf.Dataset, name string) (C.int, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
 	var id C.int
@@ -117,6 +168,8 @@ func varID(ncid netcdf.Dataset, name string) (C.int, error) {
 
 // fileFormat reports the on-disk format of an open dataset.
 func fileFormat(ncid netcdf.Dataset) (string, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	var f C.int
 	if err := ncErr(C.nc_inq_format(C.int(ncid), &f)); err != nil {
 		return "", err
@@ -139,6 +192,8 @@ func fileFormat(ncid netcdf.Dataset) (string, error) {
 // attInfo returns the type and length of an attribute; ok is false when the
 // attribute does not exist.
 func attInfo(ncid netcdf.Dataset, varid C.int, name string) (Type, int, bool, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
 	var t C.nc_type
@@ -154,6 +209,8 @@ func attInfo(ncid netcdf.Dataset, varid C.int, name string) (Type, int, bool, er
 }
 
 func attNames(ncid netcdf.Dataset, varid C.int) ([]string, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	var n C.int
 	if varid == C.NC_GLOBAL {
 		if err := ncErr(C.nc_inq_natts(C.int(ncid), &n)); err != nil {
@@ -186,6 +243,8 @@ func getAtt(ncid netcdf.Dataset, varid C.int, name string) (any, error) {
 	if !ok {
 		return nil, netcdf.Error(C.NC_ENOTATT)
 	}
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cname := C.CString(name)
 	defer C.free(unsafe.Pointer(cname))
 	id := C.int(ncid)
@@ -262,6 +321,8 @@ func putAtt(ncid netcdf.Dataset, varid C.int, name string, value any) error {
 	id := C.int(ncid)
 	switch v := value.(type) {
 	case string:
+		ncMu.Lock()
+		defer ncMu.Unlock()
 		if len(v) == 0 {
 			var z C.char
 			return ncErr(C.nc_put_att_text(id, varid, cname, 0, &z))
@@ -290,6 +351,8 @@ func putAtt(ncid netcdf.Dataset, varid C.int, name string, value any) error {
 		}
 		return putAtt(ncid, varid, name, w)
 	}
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	if reflectLen(value) == 0 {
 		return fmt.Errorf("attribute %q: empty numeric attribute", name)
 	}
@@ -330,17 +393,23 @@ func reflectLen(v any) int {
 
 // defChunking sets chunked storage with the given chunk sizes.
 func defChunking(ncid netcdf.Dataset, varid C.int, chunks []int) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	cs := sizes(chunks)
 	return ncErr(C.nc_def_var_chunking(C.int(ncid), varid, C.NC_CHUNKED, sizePtr(cs)))
 }
 
 // defContiguous asks for contiguous storage (no chunk index).
 func defContiguous(ncid netcdf.Dataset, varid C.int) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	return ncErr(C.nc_def_var_chunking(C.int(ncid), varid, C.NC_CONTIGUOUS, nil))
 }
 
 // inqChunking returns the chunk sizes, or nil for contiguous storage.
 func inqChunking(ncid netcdf.Dataset, varid C.int, ndims int) ([]int, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	var storage C.int
 	cs := make([]C.size_t, ndims+1)
 	if err := ncErr(C.nc_inq_var_chunking(C.int(ncid), varid, &storage, &cs[0])); err != nil {
@@ -357,6 +426,8 @@ func inqChunking(ncid netcdf.Dataset, varid C.int, ndims int) ([]int, error) {
 }
 
 func defDeflate(ncid netcdf.Dataset, varid C.int, shuffle bool, level int) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, d := C.int(0), C.int(0)
 	if shuffle {
 		s = 1
@@ -370,6 +441,8 @@ func defDeflate(ncid netcdf.Dataset, varid C.int, shuffle bool, level int) error
 // defFill sets the variable's fill value with nc_def_var_fill, which writes
 // _FillValue with exactly the variable's type.
 func defFill(ncid netcdf.Dataset, varid C.int, t Type, fill float64) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	id := C.int(ncid)
 	switch t {
 	case Float:
@@ -399,6 +472,8 @@ func defFill(ncid netcdf.Dataset, varid C.int, t Type, fill float64) error {
 // value does not fit.
 
 func getVaraDouble(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float64) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.double
 	if len(buf) > 0 {
@@ -408,6 +483,8 @@ func getVaraDouble(ncid netcdf.Dataset, varid C.int, start, count []int, buf []f
 }
 
 func getVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float32) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.float
 	if len(buf) > 0 {
@@ -417,6 +494,8 @@ func getVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []fl
 }
 
 func getVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int32) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.int
 	if len(buf) > 0 {
@@ -426,6 +505,8 @@ func getVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int3
 }
 
 func getVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int8) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.schar
 	if len(buf) > 0 {
@@ -435,6 +516,8 @@ func getVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []in
 }
 
 func getVaraUchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []uint8) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.uchar
 	if len(buf) > 0 {
@@ -444,6 +527,8 @@ func getVaraUchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []ui
 }
 
 func getVaraText(ncid netcdf.Dataset, varid C.int, start, count []int, buf []byte) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.char
 	if len(buf) > 0 {
@@ -453,6 +538,8 @@ func getVaraText(ncid netcdf.Dataset, varid C.int, start, count []int, buf []byt
 }
 
 func putVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float32) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.float
 	if len(buf) > 0 {
@@ -462,6 +549,8 @@ func putVaraFloat(ncid netcdf.Dataset, varid C.int, start, count []int, buf []fl
 }
 
 func putVaraDouble(ncid netcdf.Dataset, varid C.int, start, count []int, buf []float64) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.double
 	if len(buf) > 0 {
@@ -471,6 +560,8 @@ func putVaraDouble(ncid netcdf.Dataset, varid C.int, start, count []int, buf []f
 }
 
 func putVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int32) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.int
 	if len(buf) > 0 {
@@ -480,6 +571,8 @@ func putVaraInt(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int3
 }
 
 func putVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []int8) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.schar
 	if len(buf) > 0 {
@@ -489,6 +582,8 @@ func putVaraSchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []in
 }
 
 func putVaraUchar(ncid netcdf.Dataset, varid C.int, start, count []int, buf []uint8) error {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	s, c := sizes(start), sizes(count)
 	var p *C.uchar
 	if len(buf) > 0 {
@@ -526,6 +621,8 @@ const globalID = C.NC_GLOBAL
 // dimByID returns the name and length of the id-th dimension of the root
 // group, in definition order.
 func dimByID(ncid netcdf.Dataset, i int) (string, int, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	var n C.int
 	if err := ncErr(C.nc_inq_dimids(C.int(ncid), &n, nil, 0)); err != nil {
 		return "", 0, err
@@ -548,6 +645,8 @@ func dimByID(ncid netcdf.Dataset, i int) (string, int, error) {
 
 // varMeta returns name, type and dimension names/lengths of a variable.
 func varMeta(ncid netcdf.Dataset, varid C.int) (string, Type, []string, []int, error) {
+	ncMu.Lock()
+	defer ncMu.Unlock()
 	buf := (*C.char)(C.malloc(C.NC_MAX_NAME + 1))
 	defer C.free(unsafe.Pointer(buf))
 	var t C.nc_type

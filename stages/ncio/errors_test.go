@@ -123,6 +123,9 @@ func TestMissingVariable(t *testing.T) {
 	if v, err := f.FindVar("surface_air_pressure", "nope", "slp"); err != nil || v.Name() != "slp" {
 		t.Errorf("FindVar by name: %v %v", v, err)
 	}
+	if v, err := f.FindVarMapped("northward_wind", map[string]string{"va": "northward_wind", "slp": "air_pressure_at_mean_sea_level", "ta": "northward_wind"}); err != nil || v.Name() != "ta" {
+		t.Errorf("FindVarMapped: %v %v", v, err)
+	}
 	_, err = f.DimLen("plev")
 	wantErr(t, "DimLen", err, path, "plev", "lat")
 	v := mustVar(t, f, "slp")

@@ -54,11 +54,11 @@ func Open(path string) (*File, error) {
 	}
 	f := &File{path: path, ds: ds, open: true, byName: map[string]*Var{}, dims: map[string]int{}}
 	if err := f.load(); err != nil {
-		ds.Close()
+		dsClose(ds)
 		return nil, fileErr("open", path, err, "the file may be truncated or damaged")
 	}
 	if err := f.checkSize(st.Size()); err != nil {
-		ds.Close()
+		dsClose(ds)
 		return nil, fileErr("open", path, err, "the file is shorter than its header says: it was probably cut off while copying or writing; re-copy or regenerate it")
 	}
 	return f, nil
@@ -109,7 +109,7 @@ func (f *File) load() error {
 	if f.format, err = fileFormat(f.ds); err != nil {
 		return err
 	}
-	n, err := f.ds.NVars()
+	n, err := dsNVars(f.ds)
 	if err != nil {
 		return err
 	}
@@ -170,7 +170,7 @@ func (f *File) Close() error {
 		return nil
 	}
 	f.open = false
-	if err := f.ds.Close(); err != nil {
+	if err := dsClose(f.ds); err != nil {
 		return fileErr("close", f.path, err, "")
 	}
 	return nil
@@ -236,6 +236,20 @@ func (f *File) FindVar(standardName string, names ...string) (*Var, error) {
 	return nil, &Error{Op: "find variable", Path: f.path, Var: standardName,
 		Err:  fmt.Errorf("no variable with %s: %w", what, ErrNotFound),
 		Hint: "the file has " + f.describeVars() + "; map a file variable to " + strconvQuote(standardName) + " in the campaign's variables section"}
+}
+
+// FindVarMapped is FindVar with the fallback names taken from a campaign's
+// variables mapping (file variable name -> standard_name): every name
+// mapped to standardName is tried, in sorted order.
+func (f *File) FindVarMapped(standardName string, mapping map[string]string) (*Var, error) {
+	var names []string
+	for name, sn := range mapping {
+		if sn == standardName {
+			names = append(names, name)
+		}
+	}
+	sort.Strings(names)
+	return f.FindVar(standardName, names...)
 }
 
 func (f *File) describeVars() string {

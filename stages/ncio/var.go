@@ -125,7 +125,7 @@ func (v *Var) Chunking() ([]int, error) {
 
 // Deflate returns the shuffle flag and the zlib level (0: uncompressed).
 func (v *Var) Deflate() (shuffle bool, level int, err error) {
-	s, d, l, err := v.nv.Compression()
+	s, d, l, err := varCompression(v.nv)
 	if err != nil {
 		// netCDF-3 files have no filters.
 		return false, 0, nil

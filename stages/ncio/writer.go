@@ -126,7 +126,7 @@ func (w *Writer) defDim(name string, n int) error {
 	if _, dup := w.dims[name]; dup {
 		return w.fail(name, errors.New("dimension defined twice"), "")
 	}
-	d, err := w.ds.AddDim(name, uint64(n))
+	d, err := dsAddDim(w.ds, name, n)
 	if err != nil {
 		return w.fail(name, err, "")
 	}
@@ -157,7 +157,7 @@ func (w *Writer) DefVar(s VarSpec) error {
 		}
 		dims[i], shape[i] = d, w.dimLen[dn]
 	}
-	nv, err := w.ds.AddVar(s.Name, netcdf.Type(s.Type), dims)
+	nv, err := dsAddVar(w.ds, s.Name, s.Type, dims)
 	if err != nil {
 		return w.fail(s.Name, err, "")
 	}
@@ -341,7 +341,7 @@ func (w *Writer) EndDef() error {
 	if !w.defining {
 		return nil
 	}
-	if err := w.ds.EndDef(); err != nil {
+	if err := dsEndDef(w.ds); err != nil {
 		return w.fail("", err, "")
 	}
 	w.defining = false
@@ -484,7 +484,7 @@ func (w *Writer) Close() error {
 		}
 	}
 	w.open = false
-	if err := w.ds.Close(); err != nil {
+	if err := dsClose(w.ds); err != nil {
 		os.Remove(w.tmp)
 		return fileErr("close", w.path, err, "the disk may be full")
 	}
@@ -501,6 +501,6 @@ func (w *Writer) Abort() {
 		return
 	}
 	w.open = false
-	w.ds.Close()
+	dsClose(w.ds)
 	os.Remove(w.tmp)
 }
