@@ -96,6 +96,19 @@
 // a long river lies, so connect the label stage when river maps matter.
 // No map file is written when neither masks nor track points exist.
 //
+// # Checks
+//
+// stats_test.go and scipy_test.go: USEPA (2009) Unified Guidance Example
+// 17-7 (S, Var(S), tau, Z, p, Sen slope, intercept and 95 % interval);
+// the Holy Cross "Mann-Kendall by hand" handout with a tie (S, Var(S), Z,
+// one-sided p); NIST StRD Norris for least squares (12+ digits); seeded
+// random series against Debian's scipy.stats (kendalltau, theilslopes,
+// linregress, mannwhitneyu exact and asymptotic); the Hamed-Rao factor
+// against the formula written out independently in Python (derived).
+// kind_test.go: planted series with counts known by construction, regions
+// across the antimeridian, 360_day dates, byte-identical reruns, and the
+// maps.nc header read back with ncdump.
+//
 // # Costs
 //
 // Mann-Kendall is O(n^2) and Sen O(n^2 log n) per series of n years; the
