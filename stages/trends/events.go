@@ -53,7 +53,7 @@ var (
 	colID        = []string{"id", "event_id", "event"}
 	colClass     = []string{"class", "class_name"}
 	colYear      = []string{"year", "start_year"}
-	colStart     = []string{"start", "start_time", "first_time", "time_start"}
+	colStart     = []string{"start", "start_time", "first_date", "first_time", "time_start"}
 	colDurDays   = []string{"duration_days", "duration_d", "days"}
 	colDurHours  = []string{"duration_hours", "duration_h", "hours"}
 	colLandfall  = []string{"landfall", "made_landfall", "landfall_time"}
@@ -62,8 +62,8 @@ var (
 	colRegions   = []string{"regions", "regions_touched"}
 	colScenario  = []string{"scenario"}
 	colMember    = []string{"member"}
-	colTCInt     = []string{"max_wind_ms", "max_wind", "max_wind_speed", "vmax"}
-	colARInt     = []string{"max_ivt_kg_m_s", "max_ivt", "ivt_max"}
+	colTCInt     = []string{"max_wind_ms", "max_wind", "peak_wind_ms", "max_wind_speed", "vmax"}
+	colARInt     = []string{"max_ivt_kg_m_s", "max_ivt", "peak_ivt", "ivt_max"}
 	colPtID      = []string{"event_id", "id", "event"}
 	colPtLat     = []string{"lat", "latitude", "centroid_lat"}
 	colPtLon     = []string{"lon", "longitude", "centroid_lon"}
