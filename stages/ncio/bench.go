@@ -2,6 +2,7 @@ package ncio
 
 import (
 	"fmt"
+	"math"
 	"time"
 )
 
@@ -21,12 +22,21 @@ var DefaultRawSpec = RawSpec{NT: 365, NY: 96, NX: 144}
 // Bytes is the uncompressed size of the field.
 func (s RawSpec) Bytes() int64 { return int64(s.NT) * int64(s.NY) * int64(s.NX) * 4 }
 
-// rawField fills one time step with a smooth, compressible but not
-// constant pattern (deterministic).
+// rawField fills one time step with a smooth pressure-like wave plus
+// deterministic noise of about 1 Pa (xorshift, seeded by the step), so
+// that deflate meets the same kind of entropy as in model output rather
+// than a trivially compressible pattern.
 func rawField(buf []float32, t, ny, nx int) {
+	state := uint32(2463534242 + 7919*t)
 	for j := 0; j < ny; j++ {
+		lat := math.Pi * (float64(j)/float64(ny) - 0.5)
 		for i := 0; i < nx; i++ {
-			buf[j*nx+i] = 101325 + float32((i*7+j*13+t*3)%997)*0.25
+			lon := 2 * math.Pi * float64(i) / float64(nx)
+			state ^= state << 13
+			state ^= state >> 17
+			state ^= state << 5
+			noise := float64(state)/float64(math.MaxUint32) - 0.5
+			buf[j*nx+i] = float32(101325 + 1500*math.Cos(lat)*math.Sin(3*lon+0.1*float64(t)) + noise)
 		}
 	}
 }
@@ -35,6 +45,14 @@ func rawField(buf []float32, t, ny, nx int) {
 // lat, lon) to path, one time step per call, and returns the uncompressed
 // bytes written and the elapsed time.
 func RawWriteFloat32(path string, s RawSpec) (int64, time.Duration, error) {
+	// The data are made before the clock starts: eight distinct steps,
+	// cycled (more than a deflate window apart, so no cross-step gain).
+	const distinct = 8
+	steps := make([][]float32, distinct)
+	for t := range steps {
+		steps[t] = make([]float32, s.NY*s.NX)
+		rawField(steps[t], t, s.NY, s.NX)
+	}
 	begin := time.Now()
 	w, err := Create(path)
 	if err != nil {
@@ -49,10 +67,8 @@ func RawWriteFloat32(path string, s RawSpec) (int64, time.Duration, error) {
 		w.Abort()
 		return 0, 0, err
 	}
-	buf := make([]float32, s.NY*s.NX)
 	for t := 0; t < s.NT; t++ {
-		rawField(buf, t, s.NY, s.NX)
-		if err := w.WriteFloat32("field", []int{t, 0, 0}, []int{1, s.NY, s.NX}, buf); err != nil {
+		if err := w.WriteFloat32("field", []int{t, 0, 0}, []int{1, s.NY, s.NX}, steps[t%distinct]); err != nil {
 			w.Abort()
 			return 0, 0, err
 		}

@@ -18,7 +18,7 @@ func TestConcurrentUseIsSerialised(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := make([]float32, spec.NY*spec.NX)
-	rawField(want, 5, spec.NY, spec.NX)
+	rawField(want, 5%8, spec.NY, spec.NX)
 	var wg sync.WaitGroup
 	errs := make(chan error, 8)
 	for g := 0; g < 4; g++ {

@@ -31,6 +31,12 @@ func TestSampleVinth2pValues(t *testing.T) {
 	if T.Units() != "K" || T.LongName() != "temperature" || T.Type() != Float {
 		t.Errorf("T units %q long_name %q type %v; ncdump -h says K, temperature, float", T.Units(), T.LongName(), T.Type())
 	}
+	if c, err := T.Chunking(); c != nil || err != nil {
+		t.Errorf("classic file chunking %v %v, want none", c, err)
+	}
+	if s, l, err := T.Deflate(); s || l != 0 || err != nil {
+		t.Errorf("classic file deflate %v %v %v, want none", s, l, err)
+	}
 	got, err := T.ReadFloat64([]int{1, 0, 0, 0}, []int{1, 18, 64, 128})
 	if err != nil {
 		t.Fatal(err)
