@@ -97,7 +97,7 @@ for t in range(nt):
 }
 
 // pstormConfig is pressure-only tracking: no per-step criterion beyond the
-// SLP minimum of its 7x7 box, 150 km/h (900 km per 6 h: extratropical
+// SLP minimum of its 7x7-point box (not widened to tc_box_width), 150 km/h (900 km per 6 h: extratropical
 // lows move faster than tropical ones, and on a 2.5 degree grid the
 // minimum jumps by a grid length), one missed step allowed, 48 h lifetime.
 func pstormConfig(t *testing.T) Config {
@@ -105,6 +105,7 @@ func pstormConfig(t *testing.T) Config {
 	v["classes"] = []string{ClassTC}
 	v["tc_criteria"] = []string{}
 	v["tc_max_speed"] = 150.0
+	v["tc_box_width"] = 0.0 // the 7x7-point box of the numpy reference
 	cfg, err := ParseConfig(v)
 	if err != nil {
 		t.Fatal(err)

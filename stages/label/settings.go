@@ -47,7 +47,8 @@ const (
 // SI units (distances in metres, speeds in m s-1, times in hours).
 type TCConfig struct {
 	Criteria       []string
-	BoxPoints      int     // side of the square search box, grid points (odd)
+	BoxPoints      int     // least side of the square search box, grid points (odd)
+	BoxWidth       float64 // least side of the box, m (along a meridian)
 	VorticityMin   float64 // s-1, magnitude; sign follows the hemisphere
 	WindMin        float64 // m s-1; 0 = scale with grid spacing (WindThreshold)
 	WarmCoreMin    float64 // K, sum of the 700, 500, 300 hPa anomalies
@@ -58,7 +59,6 @@ type TCConfig struct {
 	MaskWind       float64 // m s-1; 0 = the detection threshold
 	MaskMaxRadius  float64 // m
 	MinSLPDepth    float64 // Pa below the box mean; 0 = off
-	SearchRadiusPt int     // half-width of the box, (BoxPoints-1)/2
 }
 
 // Has reports whether a criterion is switched on.
@@ -103,8 +103,11 @@ func settings() []pipeline.Setting {
 			Doc: "Per-candidate tropical-cyclone criteria applied on top of the SLP local minimum: vorticity, max_wind, warm_core, wind_profile, genesis_latitude. " +
 				"The default set is that of Bengtsson et al. (1995, Tellus 47A) and Vitart et al. (1997, J. Climate 10); leave one out only to study its effect, or when the data lack its fields."},
 		{Name: "tc_box_points", Type: pipeline.TypeInt, Unit: "1", Default: 7, Min: b(3), Max: b(41),
-			Doc: "Side in grid points of the square box around an SLP minimum in which vorticity, wind and the warm core are searched; odd. " +
+			Doc: "Least side in grid points of the square box around an SLP minimum in which vorticity, wind and the warm core are searched; odd (see also tc_box_width). " +
 				"Default 7 (7x7 points, Bengtsson et al. 1995, confirmed). The SLP minimum must be the lowest value in its box."},
+		{Name: "tc_box_width", Type: pipeline.TypeFloat, Unit: "km", Default: 875.0, Min: b(0), Max: b(3000),
+			Doc: "Least side of the search box along a meridian: on grids finer than about 1.1 degrees the box grows beyond tc_box_points to keep this width, so that the warm-core anomaly is still measured against surroundings outside the core. " +
+				"Default 875 km = 7 points of the T106 grid (about 1.125 degrees, 125 km) on which Bengtsson et al. (1995) set the 7x7 box; the T106 spacing is from memory. 0 keeps the box at tc_box_points."},
 		{Name: "tc_vorticity_min", Type: pipeline.TypeFloat, Unit: "s-1", Default: 3.5e-5, Min: b(0), Sweep: true,
 			Doc: "Least 850 hPa relative vorticity in the box, positive in the northern hemisphere and negative (below -value) in the southern. " +
 				"Default 3.5e-5 s-1 (Bengtsson et al. 1995; Vitart et al. 1997; confirmed)."},
@@ -186,7 +189,7 @@ func ParseConfig(v pipeline.Values) (Config, error) {
 	c.TCConf = TCConfig{
 		Criteria:       crit,
 		BoxPoints:      box,
-		SearchRadiusPt: (box - 1) / 2,
+		BoxWidth:       v.Float("tc_box_width") * 1000,
 		VorticityMin:   v.Float("tc_vorticity_min"),
 		WindMin:        v.Float("tc_wind_min"),
 		WarmCoreMin:    v.Float("tc_warm_core_min"),

@@ -60,6 +60,18 @@ func GridSpacing(g *grid.Grid) float64 {
 	return grid.EarthRadius * math.Sqrt(g.DLat()*g.DLon()) * math.Pi / 180
 }
 
+// Radius is the half-width r in grid points of the search box on g, a
+// box of 2r+1 cells: the larger of (BoxPoints-1)/2 and the least r whose
+// 2r+1 rows of R*dlat metres span BoxWidth, r = ceil((W/(R dlat) - 1)/2).
+func (c *TCConfig) Radius(g *grid.Grid) int {
+	r := (c.BoxPoints - 1) / 2
+	if c.BoxWidth > 0 {
+		row := grid.EarthRadius * g.DLat() * math.Pi / 180
+		r = max(r, int(math.Ceil((c.BoxWidth/row-1)/2-1e-9)))
+	}
+	return r
+}
+
 // box lists the flat indices of the (2r+1)x(2r+1) box centred on (i, j):
 // wrapped in longitude on a periodic grid, clipped at the grid edges
 // otherwise. complete is false when the box was clipped.
@@ -107,7 +119,7 @@ func box(g *grid.Grid, i, j, r int, out []int) (ks []int, complete bool) {
 // Genesis latitude is a track rule (see Stitch). windMin is the resolved
 // wind threshold (WindThreshold when the setting is 0).
 func FindCandidates(g *grid.Grid, f *TCStep, c *TCConfig, windMin float64, step int, hours float64) ([]Candidate, error) {
-	r := c.SearchRadiusPt
+	r := c.Radius(g)
 	minima, err := g.LocalMinima(f.SLP, r)
 	if err != nil {
 		return nil, err

@@ -25,6 +25,27 @@ func defaultTC(t testing.TB) TCConfig {
 	return c.TCConf
 }
 
+func TestBoxRadius(t *testing.T) {
+	c := defaultTC(t)
+	// 7 points (Bengtsson et al. 1995) on coarse grids and at T106
+	// (1.125 degrees: 7 x 125 km = 875 km); on fine grids 2r+1 rows of
+	// R*dlat span at least 875 km (derived: 0.5 degree rows are 55.6 km,
+	// 15.7 rows -> 17 -> r 8; 0.25 degree, 31.5 rows -> 33 -> r 16).
+	for _, x := range []struct {
+		d    float64
+		want int
+	}{{3, 3}, {1.5, 3}, {1.125, 3}, {0.5, 8}, {0.25, 16}} {
+		g := mustGrid(t, 0, x.d, 5, 0, x.d, 5)
+		if r := c.Radius(g); r != x.want {
+			t.Errorf("dlat %g: radius %d points, want %d", x.d, r, x.want)
+		}
+	}
+	c.BoxWidth = 0
+	if r := c.Radius(mustGrid(t, 0, 0.25, 5, 0, 0.25, 5)); r != 3 {
+		t.Errorf("tc_box_width 0: radius %d, want 3", r)
+	}
+}
+
 func TestWindThreshold(t *testing.T) {
 	// Walsh et al. (2007), confirmed in reference-values.md: 17.5 m/s for
 	// observations, about 10 m/s at 300 km; the line between is ours.
