@@ -46,19 +46,19 @@ const (
 // TCConfig holds the tropical-cyclone settings of one label instance, in
 // SI units (distances in metres, speeds in m s-1, times in hours).
 type TCConfig struct {
-	Criteria       []string
-	BoxPoints      int     // least side of the square search box, grid points (odd)
-	BoxWidth       float64 // least side of the box, m (along a meridian)
-	VorticityMin   float64 // s-1, magnitude; sign follows the hemisphere
-	WindMin        float64 // m s-1; 0 = scale with grid spacing (WindThreshold)
-	WarmCoreMin    float64 // K, sum of the 700, 500, 300 hPa anomalies
-	GenesisMaxLat  float64 // degrees from the equator
-	MaxSpeed       float64 // m per hour between matched centres
-	MaxGapSteps    int     // missing steps allowed inside a track
-	MinLifetime    float64 // hours from first to last point
-	MaskWind       float64 // m s-1; 0 = the detection threshold
-	MaskMaxRadius  float64 // m
-	MinSLPDepth    float64 // Pa below the box mean; 0 = off
+	Criteria      []string
+	BoxPoints     int     // least side of the square search box, grid points (odd)
+	BoxWidth      float64 // least side of the box, m (along a meridian)
+	VorticityMin  float64 // s-1, magnitude; sign follows the hemisphere
+	WindMin       float64 // m s-1; 0 = scale with grid spacing (WindThreshold)
+	WarmCoreMin   float64 // K, sum of the 700, 500, 300 hPa anomalies
+	GenesisMaxLat float64 // degrees from the equator
+	MaxSpeed      float64 // m per hour between matched centres
+	MaxGapSteps   int     // missing steps allowed inside a track
+	MinLifetime   float64 // hours from first to last point
+	MaskWind      float64 // m s-1; 0 = the detection threshold
+	MaskMaxRadius float64 // m
+	MinSLPDepth   float64 // Pa below the box mean; 0 = off
 }
 
 // Has reports whether a criterion is switched on.
@@ -187,19 +187,19 @@ func ParseConfig(v pipeline.Values) (Config, error) {
 		return c, fmt.Errorf("setting tc_box_points: %d must be odd and at least 3 (the box is centred on the SLP minimum)", box)
 	}
 	c.TCConf = TCConfig{
-		Criteria:       crit,
-		BoxPoints:      box,
-		BoxWidth:       v.Float("tc_box_width") * 1000,
-		VorticityMin:   v.Float("tc_vorticity_min"),
-		WindMin:        v.Float("tc_wind_min"),
-		WarmCoreMin:    v.Float("tc_warm_core_min"),
-		GenesisMaxLat:  v.Float("tc_genesis_max_lat"),
-		MaxSpeed:       v.Float("tc_max_speed") * 1000,
-		MaxGapSteps:    v.Int("tc_max_gap_steps"),
-		MinLifetime:    v.Float("tc_min_lifetime"),
-		MaskWind:       v.Float("tc_mask_wind"),
-		MaskMaxRadius:  v.Float("tc_mask_max_radius") * 1000,
-		MinSLPDepth:    v.Float("tc_min_slp_depth"),
+		Criteria:      crit,
+		BoxPoints:     box,
+		BoxWidth:      v.Float("tc_box_width") * 1000,
+		VorticityMin:  v.Float("tc_vorticity_min"),
+		WindMin:       v.Float("tc_wind_min"),
+		WarmCoreMin:   v.Float("tc_warm_core_min"),
+		GenesisMaxLat: v.Float("tc_genesis_max_lat"),
+		MaxSpeed:      v.Float("tc_max_speed") * 1000,
+		MaxGapSteps:   v.Int("tc_max_gap_steps"),
+		MinLifetime:   v.Float("tc_min_lifetime"),
+		MaskWind:      v.Float("tc_mask_wind"),
+		MaskMaxRadius: v.Float("tc_mask_max_radius") * 1000,
+		MinSLPDepth:   v.Float("tc_min_slp_depth"),
 	}
 	c.ARConf = ARConfig{
 		Threshold:      v.String("ar_threshold"),
