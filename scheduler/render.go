@@ -189,7 +189,8 @@ func RenderScript(p *Profile, d Dialect, spec *JobSpec, shape Shape) []byte {
 		if !d.NativeWarning {
 			lead := time.Duration(shape.Walltime - p.Warning.Lead)
 			w("# This engine has no warning directive: arm a timer instead.")
-			w("(sleep %d && kill -s %s \"$$\") &", int64(lead/time.Second), sig)
+			w("# Its output goes nowhere so that it never holds the job's log open.")
+			w("(sleep %d && kill -s %s \"$$\") </dev/null >/dev/null 2>&1 &", int64(lead/time.Second), sig)
 			w("squall_timer=$!")
 			w("trap 'kill \"$squall_timer\" 2>/dev/null || true' EXIT")
 		}

@@ -14,11 +14,12 @@
 //	plan.json, plan.txt  cost and staging plan
 //
 // Training: N nodes x G ranks (one per accelerator). Each segment stages
-// the node's shards (the shard stage's rank assignment when its rank count
-// matches, otherwise recomputed with shard.RankShards) to
+// the node's shards (balanced with shard.BalanceShards, the shard stage's own rule, so it
+// equals the manifest's assignment when the rank counts match) to
 // node.scratch.path/squall-shards-JOBID in parallel, verifies them, then
 // runs train_command through the profile's launcher with SQUALL_MANIFEST,
-// SQUALL_STATS, SQUALL_CLASS_WEIGHTS, SQUALL_SHARDS and SQUALL_CHECKPOINTS
+// SQUALL_STATS, SQUALL_CLASS_WEIGHTS (weights.json among the inputs, else
+// the manifest, whose loss_weights key holds them), SQUALL_SHARDS and SQUALL_CHECKPOINTS
 // set (also available as {manifest} {stats} {weights} {shards}
 // {checkpoints} placeholders). The warning signal is forwarded to the
 // trainer, which must write a checkpoint and exit 0; the next segment

@@ -62,18 +62,15 @@ func (Kind) Settings() []pipeline.Setting {
 // Manifest is the part of the shard stage's manifest.json we read.
 type Manifest struct {
 	Shards []ShardEntry `json:"shards"`
-	// Ranks, when present, assigns shard indices to ranks; it is used when
-	// its rank count matches the job, otherwise recomputed the same way.
-	Ranks [][]int `json:"ranks,omitempty"`
 }
 
 // ShardEntry is one shard file.
 type ShardEntry struct {
-	File    string `json:"file"` // relative to the manifest's directory
-	Role    string `json:"role,omitempty"`
+	File    string `json:"file"`          // relative to the manifest's directory
+	Role    string `json:"set,omitempty"` // train, validate, test
 	Samples int64  `json:"samples"`
 	Bytes   int64  `json:"bytes"`
-	Digest  string `json:"digest,omitempty"`
+	Digest  string `json:"blake3,omitempty"`
 }
 
 // SampleBytes is the stored size of one sample of float values.
@@ -147,6 +144,9 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 			sampleBytes = float64(sh.Bytes) / float64(sh.Samples)
 		}
 	}
+	if weightsPath == "" {
+		weightsPath = manPath // the shard manifest carries loss_weights
+	}
 	if len(train) == 0 {
 		return fmt.Errorf("batch-scripts: %s lists no training shards", manPath)
 	}
@@ -163,19 +163,16 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 	usable := segWall - time.Duration(prof.Warning.Lead)
 	shareOf := func(nodes int) ([][]int, []int64) {
 		ranks := nodes * acc
-		var byRank [][]int
-		if len(man.Ranks) == ranks {
-			byRank = man.Ranks
-		} else {
-			sizes := make([]int64, len(train))
-			for j, i := range train {
-				sizes[j] = man.Shards[i].Bytes
-			}
-			byRank = shard.RankShards(sizes, ranks)
-			for r := range byRank {
-				for j := range byRank[r] {
-					byRank[r][j] = train[byRank[r][j]]
-				}
+		// The shard stage's own balancing rule, so the assignment equals the
+		// manifest's whenever its rank count matches this job's.
+		sizes := make([]int64, len(train))
+		for j, i := range train {
+			sizes[j] = man.Shards[i].Bytes
+		}
+		byRank := shard.BalanceShards(sizes, ranks)
+		for r := range byRank {
+			for j := range byRank[r] {
+				byRank[r][j] = train[byRank[r][j]]
 			}
 		}
 		perNode := make([][]int, nodes)

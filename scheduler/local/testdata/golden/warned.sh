@@ -41,7 +41,8 @@ squall_warn() {
 }
 trap squall_warn USR1
 # This engine has no warning directive: arm a timer instead.
-(sleep 600 && kill -s USR1 "$$") &
+# Its output goes nowhere so that it never holds the job's log open.
+(sleep 600 && kill -s USR1 "$$") </dev/null >/dev/null 2>&1 &
 squall_timer=$!
 trap 'kill "$squall_timer" 2>/dev/null || true' EXIT
 
