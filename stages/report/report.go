@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"html/template"
 	"image/color"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -42,16 +43,16 @@ func Write(path string, in Input) error {
 	return nil
 }
 
-// Render writes the page to buf. Sections whose stage outputs are absent
+// Render writes the page to w. Sections whose stage outputs are absent
 // say so; unreadable outputs become notes on the page, not errors, so one
 // broken file never costs the whole report. Errors are reserved for the
 // page itself failing to render.
-func Render(buf *bytes.Buffer, in Input) error {
+func Render(w io.Writer, in Input) error {
 	pg, err := build(&in)
 	if err != nil {
 		return err
 	}
-	return pageTemplate.Execute(buf, pg)
+	return pageTemplate.Execute(w, pg)
 }
 
 // ---- the page model ----

@@ -14,6 +14,7 @@ import (
 	"testing"
 
 	"github.com/squall-climate/squall/pipeline"
+	"github.com/squall-climate/squall/stages/ncio"
 )
 
 // defaults returns the declared defaults as Values, the way the planner
@@ -420,5 +421,80 @@ func TestCheckStage(t *testing.T) {
 	}
 	if err := (Kind{}).CheckStage("t", defaults(nil), c); err != nil {
 		t.Error(err)
+	}
+}
+
+// writeMaskFile writes a mask.nc in the shared layout: 4 steps on a 3x4
+// grid; class 1 at cell 0 in `tcSteps` steps, class 2 at cell 11 always.
+func writeMaskFile(t *testing.T, path string, tcSteps int) {
+	t.Helper()
+	os.MkdirAll(filepath.Dir(path), 0o755)
+	w, err := ncio.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w.DefTime([]float64{0, 6, 12, 18}, "hours since 2000-01-01 00:00:00", "360_day")
+	w.DefLat([]float64{10, 20, 30})
+	w.DefLon([]float64{170, 180, 190, 200})
+	w.DefVar(ncio.VarSpec{Name: "class_mask", Type: ncio.Byte, Dims: []string{"time", "lat", "lon"}, Attrs: []ncio.Attr{
+		{Name: "flag_values", Value: []int8{0, 1, 2}}, {Name: "flag_meanings", Value: "background tropical_cyclone atmospheric_river"}}})
+	if err := w.EndDef(); err != nil {
+		t.Fatal(err)
+	}
+	m := make([]int8, 4*12)
+	for s := 0; s < 4; s++ {
+		if s < tcSteps {
+			m[s*12] = 1
+		}
+		m[s*12+11] = 2
+	}
+	if err := w.WriteInt8("class_mask", nil, nil, m); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// With mask inputs the maps are the fraction of time steps in each class
+// (derived by construction: 1 of 4 steps in control, 3 of 4 in future).
+func TestRunMaskFrequencyMaps(t *testing.T) {
+	c := newCampaign(t, nil)
+	for i, scn := range []string{"control", "future"} {
+		p := filepath.Join(c.root, "labels", scn, "mask.nc")
+		writeMaskFile(t, p, 1+2*i)
+		c.job.Inputs = append(c.job.Inputs, pipeline.Input{From: "labels", Kind: "label", Scenario: scn, Block: "", Dir: filepath.Dir(p), Files: []string{p}})
+	}
+	if err := (Kind{}).Run(context.Background(), c.job); err != nil {
+		t.Fatal(err)
+	}
+	o, err := ReadOutput(filepath.Join(c.job.OutDir, JSONFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if o.Maps == nil || o.Maps.Source != SourceMasks || o.Maps.Units != "1" {
+		t.Fatalf("maps: %+v", o.Maps)
+	}
+	f, err := ncio.Open(filepath.Join(c.job.OutDir, MapsFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	read := func(name string) []float64 {
+		v, err := f.Var(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		x, err := v.ReadFloat64(nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return x
+	}
+	ctl, fut := read("tropical_cyclone_frequency_control"), read("tropical_cyclone_frequency_future")
+	diff := read("tropical_cyclone_frequency_difference_future_minus_control")
+	ar := read("atmospheric_river_frequency_future")
+	if ctl[0] != 0.25 || fut[0] != 0.75 || diff[0] != 0.5 || ctl[1] != 0 || ar[11] != 1 || ar[0] != 0 {
+		t.Errorf("control %v future %v diff %v river %v", ctl[:2], fut[:2], diff[:2], ar)
 	}
 }
