@@ -437,7 +437,9 @@ func (v *Var) ReadInt8(start, count []int) ([]int8, error) {
 }
 
 // ReadUint8 reads stored values as uint8 without masking (class masks,
-// flags). Negative NC_BYTE values are an error (out of range).
+// flags). A negative NC_BYTE value is an error in a netCDF-4 file
+// (NC_ERANGE; use ReadInt8), while netCDF-3 files wrap it (-1 reads as
+// 255) under the library's byte rules.
 func (v *Var) ReadUint8(start, count []int) ([]uint8, error) {
 	start, count, n, err := v.slab(start, count)
 	if err != nil {
