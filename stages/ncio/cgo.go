@@ -399,13 +399,6 @@ func defChunking(ncid netcdf.Dataset, varid C.int, chunks []int) error {
 	return ncErr(C.nc_def_var_chunking(C.int(ncid), varid, C.NC_CHUNKED, sizePtr(cs)))
 }
 
-// defContiguous asks for contiguous storage (no chunk index).
-func defContiguous(ncid netcdf.Dataset, varid C.int) error {
-	ncMu.Lock()
-	defer ncMu.Unlock()
-	return ncErr(C.nc_def_var_chunking(C.int(ncid), varid, C.NC_CONTIGUOUS, nil))
-}
-
 // inqChunking returns the chunk sizes, or nil for contiguous storage.
 func inqChunking(ncid netcdf.Dataset, varid C.int, ndims int) ([]int, error) {
 	ncMu.Lock()
@@ -675,10 +668,5 @@ type cint = C.int
 const (
 	errNotNC    = C.NC_ENOTNC
 	errHDF      = C.NC_EHDFERR
-	errNotVar   = C.NC_ENOTVAR
-	errTrunc    = C.NC_EINVAL
-	errBadDim   = C.NC_EBADDIM
-	errEdge     = C.NC_EEDGE
-	errRange    = C.NC_ERANGE
 	errReadData = C.NC_EIO
 )
