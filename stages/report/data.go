@@ -267,8 +267,7 @@ func evaluationTables(in *Input) ([]table, []string) {
 				notes = append(notes, err.Error())
 			} else {
 				cols := []string{"member", "scenario", "class", "hits", "misses", "false_alarms",
-					"probability_of_detection", "pod", "false_alarm_ratio", "far", "critical_success_index", "csi",
-					"frequency_bias", "bias", "heidke_skill_score", "hss", "peirce_skill_score", "pss", "gilbert_skill_score", "gss"}
+					"pod", "far", "csi", "frequency_bias", "heidke", "peirce", "gilbert"}
 				tables = append(tables, pick(t, "Event scores ("+where+")",
 					"Events matched by overlap; the 2x2 verification table and its scores.", cols, headline))
 			}
@@ -285,6 +284,12 @@ func headline(t *csvTable, rec []string) bool {
 		}
 	}
 	return true
+}
+
+// columnTitles are the trade's spelling of score column names.
+var columnTitles = map[string]string{
+	"iou": "IoU", "f1": "F1", "pod": "POD", "far": "FAR", "csi": "CSI", "frequency_bias": "frequency bias",
+	"heidke": "Heidke skill", "peirce": "Peirce skill", "gilbert": "Gilbert skill",
 }
 
 // pick renders the wanted columns that exist (in the wanted order) of the
@@ -306,7 +311,11 @@ func pick(t *csvTable, title, note string, want []string, keep func(*csvTable, [
 				continue
 			}
 			idx = append(idx, i)
-			out.Columns = append(out.Columns, strings.ReplaceAll(t.header[i], "_", " "))
+			name := strings.ReplaceAll(t.header[i], "_", " ")
+			if nice, ok := columnTitles[w]; ok {
+				name = nice
+			}
+			out.Columns = append(out.Columns, name)
 		}
 	}
 	for _, rec := range t.rows {

@@ -203,9 +203,10 @@ func newFixture(t testing.TB) *fixture {
 		",all,all,all,area,atmospheric_river,40,10,8,60,0.6897,0.8,0.8333,0.8163,\n"+
 		",all,all,all,area,mean,,,,,0.678,0.8167,0.8013,0.8082,0.85\n"+
 		",all,west_pacific,all,area,mean,,,,,0.5,0.5,0.5,0.5,0.5\n")
+	// Finley (1884) table and its scores (reference-values.md) as a row.
 	writeFile(t, filepath.Join(edir, "event_scores.csv"), "member,scenario,region,season,class,hits,false_alarms,misses,correct_negatives,"+
-		"probability_of_detection,false_alarm_ratio,critical_success_index\n"+
-		",all,all,all,tropical_cyclone,28,72,23,2680,0.549,0.72,0.2276\n")
+		"pod,far,pofd,csi,frequency_bias,proportion_correct,heidke,peirce,gilbert,odds_ratio\n"+
+		",all,all,all,tropical_cyclone,28,72,23,2680,0.5490196,0.72,0.0261628,0.2276423,1.9607843,0.9661077,0.3553249,0.5228568,0.2160456,45.31401\n")
 	in.Outputs = append(in.Outputs, Output{Stage: "scores", Kind: "evaluate", Dir: edir})
 	f.in = in
 	return f
@@ -236,7 +237,7 @@ func TestWriteFullReport(t *testing.T) {
 	}
 	// Every section is present with content, none says it is missing.
 	for _, want := range []string{Caution, "coastal-demo", "Stage graph", "Class fractions", "Pixel scores", "Event scores",
-		"Event counts", "Tropical cyclones by peak wind", "Atmospheric rivers by peak IVT", "frequency_difference_warm_minus_control",
+		"Event counts", "<th>CSI</th>", "<td>0.228</td>", "Tropical cyclones by peak wind", "Atmospheric rivers by peak IVT", "frequency_difference_warm_minus_control",
 		"Trends of annual events", "Scenario differences", "west_pacific · tropical cyclone", "&#34;id&#34;: &#34;run-0001&#34;",
 		"reference masks missing"} {
 		if !strings.Contains(page, want) {
