@@ -109,6 +109,16 @@ func plan(channels []pipeline.Channel, mapping map[string]string, paths []string
 		if err != nil {
 			return nil, err
 		}
+		// Two requests that resolve to the same variable with the same
+		// conversion (a channel in the file's units and a derived field
+		// asking for the same units by another spelling) share one read.
+		for _, o := range p.sources {
+			if o.varName == s.varName && o.steps[0].f == s.steps[0].f && (o.lv == nil) == (s.lv == nil) &&
+				o.conv.Scale == s.conv.Scale && o.conv.Offset == s.conv.Offset {
+				srcByKey[r.key()] = o
+				return o, nil
+			}
+		}
 		srcByKey[r.key()] = s
 		p.sources = append(p.sources, s)
 		if s.hybrid {
