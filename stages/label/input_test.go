@@ -239,6 +239,19 @@ func TestBadInput(t *testing.T) {
 			}
 		}
 	})
+	t.Run("sweep lists at load time", func(t *testing.T) {
+		// The loader hands CheckStage a swept setting as its list.
+		v := DefaultValues()
+		v["ar_ivt_min"] = []any{200.0, 250.0, 300.0}
+		v["tc_warm_core_min"] = []any{3.0, 4.0}
+		if err := (Kind{}).CheckStage("labels", v, &pipeline.CampaignInfo{}); err != nil {
+			t.Errorf("sweep: %v", err)
+		}
+		v["tc_box_points"] = 8
+		if err := (Kind{}).CheckStage("labels", v, &pipeline.CampaignInfo{}); err == nil {
+			t.Errorf("even box with a sweep elsewhere accepted")
+		}
+	})
 	t.Run("climatology of another grid", func(t *testing.T) {
 		fp := write(testChannel{name: "ivt", quantity: QIVT, units: "kg m-1 s-1", data: field(300)})
 		other := mustGrid(t, 0, 2, 26, 100, 2, 41)

@@ -54,11 +54,31 @@ func (Kind) Doc() string {
 func (Kind) CampaignSections() []string { return []string{} }
 
 // CheckStage validates the settings at load time.
+// At load time a swept setting still holds its list of values; each value
+// was type- and range-checked by the loader, and ParseConfig's own checks
+// concern settings that cannot be swept, so each list is checked through
+// its first value.
 func (Kind) CheckStage(stage string, s pipeline.Values, c *pipeline.CampaignInfo) error {
-	if _, err := ParseConfig(s); err != nil {
+	one := pipeline.Values{}
+	for k, x := range s {
+		if l, ok := x.([]any); ok && sweepable(k) && len(l) > 0 {
+			x = l[0]
+		}
+		one[k] = x
+	}
+	if _, err := ParseConfig(one); err != nil {
 		return fmt.Errorf("stage %s: %w", stage, err)
 	}
 	return nil
+}
+
+func sweepable(name string) bool {
+	for _, s := range settings() {
+		if s.Name == name {
+			return s.Sweep
+		}
+	}
+	return false
 }
 
 // Run labels every time step of the instance's fields.nc.

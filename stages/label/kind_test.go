@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
+	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
@@ -278,6 +280,36 @@ func TestKindRelativeThreshold(t *testing.T) {
 			if c == AtmosphericRiver {
 				t.Fatalf("step %d: AR pixel below the 200 floor", s)
 			}
+		}
+	}
+}
+
+// TestSettingsJSONRoundTrip: a child process receives its settings as
+// JSON (numbers become float64, lists []any); the defaults must still
+// parse, and every setting must document its default's source.
+func TestSettingsJSONRoundTrip(t *testing.T) {
+	b, err := json.Marshal(DefaultValues())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var v pipeline.Values
+	if err := json.Unmarshal(b, &v); err != nil {
+		t.Fatal(err)
+	}
+	a, err := ParseConfig(v)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, _ := ParseConfig(DefaultValues())
+	if fmt.Sprint(a) != fmt.Sprint(d) {
+		t.Errorf("after JSON: %+v\nbefore: %+v", a, d)
+	}
+	for _, s := range (Kind{}).Settings() {
+		if s.Doc == "" || s.Default == nil {
+			t.Errorf("setting %s lacks a doc or default", s.Name)
+		}
+		if s.Type == pipeline.TypeFloat && s.Unit == "" {
+			t.Errorf("float setting %s has no unit", s.Name)
 		}
 	}
 }
