@@ -453,3 +453,29 @@ func TestKill9RunnerThenRerunCompletes(t *testing.T) {
 		}
 	}
 }
+
+// A fan-in broadcast into block instances must arrive exactly once.
+func TestBroadcastInputArrivesOnce(t *testing.T) {
+	w := newWorld(t, map[string][]int{"control": {1990, 1991}})
+	f := filepath.Join(w.dir, "b.yaml")
+	os.WriteFile(f, []byte(`campaign: broadcast
+scenarios:
+  control: {files: data/control/*.nc, period: 1990-1991}
+stages:
+  prep: {kind: concat, inputs: [scenarios]}
+  total: {kind: sum, inputs: [prep]}
+  apply: {kind: concat, inputs: [prep, total]}
+`), 0o644)
+	for _, st := range w.plan(f).Steps {
+		if st.Stage.Name != "apply" {
+			continue
+		}
+		if len(st.Upstream) != 2 || st.Upstream[0].Stage.Name != "prep" || st.Upstream[1].Stage.Name != "total" {
+			var got []string
+			for _, u := range st.Upstream {
+				got = append(got, u.Label())
+			}
+			t.Errorf("%s reads %v; want its prep block and total once", st.Label(), got)
+		}
+	}
+}

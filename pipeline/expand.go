@@ -342,10 +342,14 @@ func (c *Campaign) patternFiles(inst *Instance) ([]Input, error) {
 	return out, nil
 }
 
-// generalisations lists a coordinate and every coarser one covering it.
+// generalisations lists a coordinate and every coarser one covering it,
+// each once (clearing a dimension that is already empty adds nothing).
 func generalisations(a coord) []coord {
 	out := make([]coord, 0, 8)
 	for mask := 0; mask < 8; mask++ {
+		if (mask&1 != 0 && a.sc == "") || (mask&2 != 0 && a.blk == "") || (mask&4 != 0 && a.mem == "") {
+			continue
+		}
 		g := a
 		if mask&1 != 0 {
 			g.sc = ""

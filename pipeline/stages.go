@@ -199,7 +199,7 @@ func (l *loader) scalar(n *yaml.Node, field string, s Setting) (any, bool) {
 			return nil, false
 		}
 		if (s.Min != nil && f < *s.Min) || (s.Max != nil && f > *s.Max) {
-			l.errf(n, field, s.describe(), "%s %s is out of range", n.Value, s.Unit)
+			l.errf(n, field, s.describe(), "%s is out of range", strings.TrimSpace(n.Value+" "+s.Unit))
 			return nil, false
 		}
 		if s.Type == TypeInt {
@@ -313,8 +313,16 @@ func (c *Campaign) checkKinds(l *loader) {
 		if !ok {
 			continue
 		}
-		if err := ch.CheckStage(st.Name, st.Settings, &c.Info); err != nil {
-			l.errf(st.node, "stages."+st.Name, "", "%v", err)
+		// Each sweep member is checked with its own scalar values.
+		for _, m := range sweepMembers(st) {
+			if err := checkStage(ch, st.Name, m.values, &c.Info); err != nil {
+				at := ""
+				if m.name != "" {
+					at = " (sweep member " + m.name + ")"
+				}
+				l.errf(st.node, "stages."+st.Name, "", "%v%s", err, at)
+				break
+			}
 		}
 	}
 }
@@ -361,4 +369,15 @@ func (c *Campaign) WriteDOT(w io.Writer) error {
 		}
 	}
 	return draw.DOT(g, w, draw.GraphAttribute("rankdir", "LR"))
+}
+
+// checkStage calls a kind's Checker, turning a panic (a kind's bug) into
+// an error that names the stage rather than a stack trace.
+func checkStage(ch Checker, name string, v Values, info *CampaignInfo) (err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = fmt.Errorf("internal error while checking stage %q: %v", name, r)
+		}
+	}()
+	return ch.CheckStage(name, v, info)
 }
