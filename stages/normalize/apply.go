@@ -2,11 +2,15 @@ package normalize
 
 import (
 	"context"
+	"encoding/hex"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"runtime"
 	"strconv"
+
+	"github.com/zeebo/blake3"
 
 	"github.com/squall-climate/squall/pipeline"
 	"github.com/squall-climate/squall/stages/ncio"
@@ -71,8 +75,6 @@ func (Kind) Settings() []pipeline.Setting {
 		{Name: "deflate", Type: pipeline.TypeInt, Default: 1, Min: pipeline.Bound(0), Max: pipeline.Bound(9),
 			Doc: "zlib level (0: none)"},
 		{Name: "shuffle", Type: pipeline.TypeBool, Default: true, Doc: "byte-shuffle filter before zlib"},
-		{Name: "workers", Type: pipeline.TypeInt, Default: 0, Min: pipeline.Bound(0), Max: pipeline.Bound(64),
-			Doc: "compute goroutines beside the I/O goroutine; 0: one fewer than the CPUs, at least 1 (does not change outputs)"},
 	}
 }
 
@@ -149,10 +151,7 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 	method := job.Settings.String("method")
 	half := job.Settings.String("precision") == "float16"
 	deflate, shuffle := job.Settings.Int("deflate"), job.Settings.Bool("shuffle")
-	workers := job.Settings.Int("workers")
-	if workers == 0 {
-		workers = max(1, runtime.NumCPU()-1)
-	}
+	workers := max(1, runtime.NumCPU()-1) // compute goroutines; cannot change outputs
 	ff, err := openFields(fieldsPaths[0])
 	if err != nil {
 		return fmt.Errorf("normalize: %w", err)
@@ -206,7 +205,8 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 	prov := ncio.Provenance{Tool: "squall", Kind: k.Name(), KindVersion: strconv.Itoa(k.Version()),
 		Settings: map[string]string{"method": method, "precision": job.Settings.String("precision"),
 			"deflate": strconv.Itoa(deflate), "shuffle": strconv.FormatBool(shuffle)},
-		Inputs: []ncio.InputDigest{{Name: FieldsFile, Digest: job.Scenario + "/" + job.Block}, {Name: StatsFile, Digest: fmt.Sprintf("training years %v", st.Years)}}}
+		Inputs: []ncio.InputDigest{{Name: FieldsFile, Digest: "scenario " + job.Scenario + " block " + job.Block},
+			{Name: StatsFile, Digest: statsDigest(statsPaths[0])}}}
 	w.PutConventions("squall normalize", prov)
 	if err := w.EndDef(); err != nil {
 		return err
@@ -373,4 +373,15 @@ func (av *applyVar) attrs(st *Stats) []ncio.Attr {
 			ncio.Attr{Name: "stats_quantiles", Value: append([]float64(nil), cs.Quantiles...)})
 	}
 	return a
+}
+
+// statsDigest is the BLAKE3 digest of stats.json (small, so hashing it
+// here is free), for the history attribute.
+func statsDigest(path string) string {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return "unreadable"
+	}
+	sum := blake3.Sum256(data)
+	return "blake3:" + hex.EncodeToString(sum[:])
 }

@@ -62,8 +62,6 @@ func (FitKind) Settings() []pipeline.Setting {
 			Doc: "quantile levels to estimate (fixed-memory t-digest)"},
 		{Name: "compression", Type: pipeline.TypeFloat, Default: 200.0, Min: pipeline.Bound(20), Max: pipeline.Bound(5000),
 			Doc: "t-digest compression: about this many centroids per channel; 200 gives rank errors near 1e-3 at the median (Dunning & Ertl 2019)"},
-		{Name: "workers", Type: pipeline.TypeInt, Default: 0, Min: pipeline.Bound(0), Max: pipeline.Bound(64),
-			Doc: "compute goroutines beside the I/O goroutine; 0: one fewer than the CPUs, at least 1 (does not change outputs)"},
 	}
 }
 
@@ -156,10 +154,7 @@ func (k FitKind) Run(ctx context.Context, job *pipeline.Job) error {
 	weighting := job.Settings.String("weighting")
 	levels := job.Settings.Floats("quantiles")
 	compression := job.Settings.Float("compression")
-	workers := job.Settings.Int("workers")
-	if workers == 0 {
-		workers = max(1, runtime.NumCPU()-1)
-	}
+	workers := max(1, runtime.NumCPU()-1) // compute goroutines; cannot change outputs
 	// The inputs to read: fields.nc of training years, in a fixed order.
 	type use struct {
 		ref  BlockRef

@@ -181,6 +181,8 @@ func baselineIO(tb testing.TB, p *planned, dir string) (readBytes int64) {
 //
 //	go test ./stages/subset -run XXX -bench SubsetNormalize -benchtime 3x
 func BenchmarkSubsetNormalize(b *testing.B) {
+	testWorkers = 0 // the production default
+	defer func() { testWorkers = 2 }()
 	days := envInt("SQUALL_BENCH_DAYS", 8)
 	files := generate(b, "bench", days, 1)
 	year := strings.TrimSuffix(strings.TrimPrefix(filepath.Base(files[0]), "fields_"), ".nc")
@@ -196,7 +198,7 @@ func BenchmarkSubsetNormalize(b *testing.B) {
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		t0 := time.Now()
-		fields, err := runSubset(b, files, year, benchChannels, nil, defaults("workers", 0))
+		fields, err := runSubset(b, files, year, benchChannels, nil, defaults())
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -230,6 +232,7 @@ func TestMemoryChild(t *testing.T) {
 	if list == "" {
 		t.Skip("child process of BenchmarkPeakMemory")
 	}
+	testWorkers = 0 // the production default
 	files := strings.Split(list, ",")
 	var fields []string
 	job := &pipeline.Job{Stage: "fit", Kind: "fit-stats", OutDir: t.TempDir(), Settings: pipeline.Values{}}
@@ -238,7 +241,7 @@ func TestMemoryChild(t *testing.T) {
 	}
 	for _, f := range files {
 		year := strings.TrimSuffix(strings.TrimPrefix(filepath.Base(f), "fields_"), ".nc")
-		out, err := runSubset(t, []string{f}, year, benchChannels, nil, defaults("workers", 0))
+		out, err := runSubset(t, []string{f}, year, benchChannels, nil, defaults())
 		if err != nil {
 			t.Fatal(err)
 		}

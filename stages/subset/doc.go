@@ -74,7 +74,7 @@
 // # Costs
 //
 // One pass over the block: libnetcdf runs on one goroutine, which reads
-// step t+1 while `workers` goroutines interpolate and derive step t
+// step t+1 while the other CPUs interpolate and derive step t
 // (stream.Steps). Memory is a few time steps of the read window: the
 // levels needed per variable (every level for hybrid input, the levels
 // inside the integral for IVT), never the whole year. Output is written

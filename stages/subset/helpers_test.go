@@ -167,6 +167,10 @@ func seq(first, step float64, n int) []float64 {
 	return out
 }
 
+// Tests run two compute goroutines so that the concurrent path is
+// exercised even on one CPU.
+func init() { testWorkers = 2 }
+
 // defaults returns the kind's default settings, overridden by kv pairs.
 func defaults(kv ...any) pipeline.Values {
 	v := pipeline.Values{}
@@ -176,7 +180,6 @@ func defaults(kv ...any) pipeline.Values {
 	for i := 0; i+1 < len(kv); i += 2 {
 		v[kv[i].(string)] = kv[i+1]
 	}
-	v["workers"] = 2 // exercise the concurrent path
 	return v
 }
 

@@ -3,6 +3,7 @@ package subset
 import (
 	"context"
 	"fmt"
+	"os"
 	"path/filepath"
 	"runtime"
 	"strconv"
@@ -74,8 +75,6 @@ func (Kind) Settings() []pipeline.Setting {
 		{Name: "deflate", Type: pipeline.TypeInt, Default: 1, Min: pipeline.Bound(0), Max: pipeline.Bound(9),
 			Doc: "zlib level of " + FieldsFile + " (0: none); level 1 with shuffle costs little and halves most fields"},
 		{Name: "shuffle", Type: pipeline.TypeBool, Default: true, Doc: "byte-shuffle filter before zlib"},
-		{Name: "workers", Type: pipeline.TypeInt, Default: 0, Min: pipeline.Bound(0), Max: pipeline.Bound(64),
-			Doc: "compute goroutines beside the I/O goroutine; 0: one fewer than the CPUs, at least 1 (does not change outputs)"},
 	}
 }
 
@@ -123,7 +122,7 @@ func readOptions(s pipeline.Values) (*options, error) {
 		landFraction: s.Bool("land_fraction"),
 		deflate:      s.Int("deflate"),
 		shuffle:      s.Bool("shuffle"),
-		workers:      s.Int("workers"),
+		workers:      computeWorkers(),
 	}
 	if o.box.latMin > o.box.latMax {
 		return nil, fmt.Errorf("setting lat_min %v is north of lat_max %v (hint: latitudes are given south to north whatever the file's order)", o.box.latMin, o.box.latMax)
@@ -142,12 +141,22 @@ func readOptions(s pipeline.Values) (*options, error) {
 		}
 		o.months[m] = true
 	}
-	if o.workers == 0 {
-		o.workers = max(1, runtime.NumCPU()-1)
-	}
-	o.settingsCanonical = canonicalSettings(s, "workers")
+	o.settingsCanonical = canonicalSettings(s)
 	return o, nil
 }
+
+// computeWorkers is the number of compute goroutines beside the I/O
+// goroutine: one fewer than the CPUs, at least one. It is not a setting
+// because it cannot change the output and would only split the cache.
+func computeWorkers() int {
+	if testWorkers > 0 {
+		return testWorkers
+	}
+	return max(1, runtime.NumCPU()-1)
+}
+
+// testWorkers lets tests force the number of compute goroutines.
+var testWorkers int
 
 // intList reads a list-of-int setting. pipeline.Values.Ints does not
 // accept the []int form a default takes before any JSON round trip, so
@@ -240,7 +249,13 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 	prov := ncio.Provenance{Tool: "squall", Kind: k.Name(), KindVersion: strconv.Itoa(k.Version()),
 		Settings: o.settingsCanonical}
 	for _, f := range files {
-		prov.Inputs = append(prov.Inputs, ncio.InputDigest{Name: filepath.Base(f), Digest: "scenario " + job.Scenario})
+		// Sizes, not digests: the cache already hashes raw inputs, and
+		// hashing them here would read every byte a second time.
+		d := "size unknown"
+		if fi, err := os.Stat(f); err == nil {
+			d = fmt.Sprintf("%d bytes", fi.Size())
+		}
+		prov.Inputs = append(prov.Inputs, ncio.InputDigest{Name: filepath.Base(f), Digest: d})
 	}
 	n, err := p.write(ctx, out, prov, o)
 	if err != nil {

@@ -371,7 +371,9 @@ func TestDeterministicAndLand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, err := runSubset(t, []string{path}, "1990", ch, nil, defaults("workers", 1))
+	testWorkers = 1
+	b, err := runSubset(t, []string{path}, "1990", ch, nil, defaults())
+	testWorkers = 2
 	if err != nil {
 		t.Fatal(err)
 	}
