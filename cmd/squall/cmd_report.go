@@ -1,8 +1,66 @@
 package main
 
-import "github.com/squall-climate/squall/pipeline"
+import (
+	"encoding/json"
+	"path/filepath"
 
-// writeReport writes the HTML report of a run (wired to stages/report).
+	"github.com/squall-climate/squall/pipeline"
+	"github.com/squall-climate/squall/stages/report"
+)
+
+// writeReport writes the HTML report of a run; path "" means the store's
+// report.html. It returns the path written.
 func writeReport(e *env, rec *pipeline.RunRecord, path string) (string, error) {
-	return "", nil
+	if path == "" {
+		path = filepath.Join(filepath.Dir(filepath.Dir(storeOfRecord(rec))), "report.html")
+	}
+	return path, report.Write(path, reportInput(rec))
+}
+
+// storeOfRecord finds the store directory from an instance's output dir
+// (<store>/objects/ab/<key>); the campaign's default store otherwise.
+func storeOfRecord(rec *pipeline.RunRecord) string {
+	for _, in := range rec.Instances {
+		if in.OutputDir != "" {
+			return filepath.Dir(filepath.Dir(in.OutputDir))
+		}
+	}
+	return filepath.Join(filepath.Dir(rec.CampaignFile), ".squall", "objects")
+}
+
+// reportInput maps a run record onto the report's own input type.
+func reportInput(rec *pipeline.RunRecord) report.Input {
+	pretty, _ := json.MarshalIndent(rec, "", "  ")
+	in := report.Input{
+		Campaign: rec.Campaign, CampaignFile: rec.CampaignFile, Tool: rec.Tool, RunID: rec.ID,
+		Status: rec.Status, Record: string(pretty),
+	}
+	for _, sc := range rec.Info.Scenarios {
+		in.Scenarios = append(in.Scenarios, report.Scenario{Name: sc.Name, FirstYear: sc.FirstYear, LastYear: sc.LastYear, Calendar: sc.Calendar, Blocks: sc.Blocks})
+	}
+	for _, ch := range rec.Info.Channels {
+		q := ch.StandardName
+		if ch.Derived != "" {
+			q = ch.Derived
+		}
+		if q == "" {
+			q = ch.Variable
+		}
+		in.Channels = append(in.Channels, report.Channel{Name: ch.Name, Quantity: q, LevelPa: ch.LevelPa, Units: ch.Units})
+	}
+	for _, st := range rec.Stages {
+		in.Stages = append(in.Stages, report.Stage{Name: st.Name, Kind: st.Kind, Fan: st.Fan, Inputs: st.Inputs})
+	}
+	for _, i := range rec.Instances {
+		reason := i.Reason
+		if i.State == pipeline.StateFailed {
+			reason = firstLineOf(i.Error)
+		}
+		in.Instances = append(in.Instances, report.Instance{Stage: i.Stage, Scenario: i.Scenario, Block: i.Block, Member: i.Member,
+			State: i.State, Seconds: i.Seconds, Reason: reason})
+		if i.OutputDir != "" {
+			in.Outputs = append(in.Outputs, report.Output{Stage: i.Stage, Kind: i.Kind, Scenario: i.Scenario, Block: i.Block, Member: i.Member, Dir: i.OutputDir})
+		}
+	}
+	return in
 }

@@ -81,16 +81,16 @@ func (p *progress) event(ev pipeline.Event) {
 		if ev.Type != "finish" {
 			return
 		}
-		if ev.State == pipeline.StateReused && time.Since(p.lastAt) < 5*time.Second && ev.Done+1 != ev.Total {
+		if ev.State == pipeline.StateReused && time.Since(p.lastAt) < 5*time.Second && ev.Done != ev.Total {
 			return
 		}
 		p.lastAt = time.Now()
 		eta := ""
-		if ev.Done > 0 && ev.Done+1 < ev.Total {
-			rest := time.Duration(float64(ev.Elapsed) / float64(ev.Done+1) * float64(ev.Total-ev.Done-1))
+		if ev.Done > 0 && ev.Done < ev.Total {
+			rest := time.Duration(float64(ev.Elapsed) / float64(ev.Done) * float64(ev.Total-ev.Done))
 			eta = fmt.Sprintf(", about %s left", rest.Round(time.Second))
 		}
-		line := fmt.Sprintf("[%d/%d] %s %s (%d running, %s elapsed%s)", ev.Done+1, ev.Total, ev.State, ev.Step.Label(), ev.Running, ev.Elapsed.Round(time.Second), eta)
+		line := fmt.Sprintf("[%d/%d] %s %s (%d running, %s elapsed%s)", ev.Done, ev.Total, ev.State, ev.Step.Label(), ev.Running, ev.Elapsed.Round(time.Second), eta)
 		if ev.Err != "" {
 			line += ": " + firstLineOf(ev.Err)
 		}
