@@ -18,6 +18,17 @@ import (
 	"github.com/squall-climate/squall/stages/subset"
 )
 
+// benchDir holds the generated bench input; TestMain removes it.
+var benchDir string
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if benchDir != "" {
+		os.RemoveAll(benchDir)
+	}
+	os.Exit(code)
+}
+
 // benchInput generates (once per process) an invented world and cuts the
 // label channels of its first block with the subset kind. The preset is
 // LABEL_BENCH_PRESET ("bench" for the generator's bench input, about
@@ -45,6 +56,7 @@ var benchInput = sync.OnceValues(func() (string, error) {
 	if err != nil {
 		return "", err
 	}
+	benchDir = dir
 	o.Dir = filepath.Join(dir, "world")
 	if _, err := invented.Generate(context.Background(), o); err != nil {
 		return "", err
