@@ -10,9 +10,9 @@ import (
 // one time step:
 //
 //   - the pixels whose 10 m wind is at least thr and that are connected
-//     (8-neighbours, across the date line on a global grid) to the storm's
-//     wind maximum through such pixels, all within maxR metres of the
-//     centre; and
+//     (grid.Components on the band of rows within maxR: 8-neighbours,
+//     across the date line on a global grid) to the storm's wind maximum
+//     through such pixels, all within maxR metres of the centre; and
 //   - every pixel at most as far from the centre as the wind maximum (the
 //     eye and eyewall, where the wind may be below thr).
 //
@@ -67,36 +67,23 @@ func TCFootprint(g *grid.Grid, wind []float64, c Candidate, thr, maxR float64, o
 		}
 	}
 	if seed >= 0 {
-		seen := make([]bool, rows*m)
-		stack := []int{seed}
-		seen[seed] = true
-		for len(stack) > 0 {
-			l := stack[len(stack)-1]
-			stack = stack[:len(stack)-1]
-			mark(l)
-			li, lj := l/m, l%m
-			for di := -1; di <= 1; di++ {
-				ni := li + di
-				if ni < 0 || ni >= rows {
-					continue
-				}
-				for dj := -1; dj <= 1; dj++ {
-					nj := lj + dj
-					if g.Periodic() {
-						nj = (nj + m) % m
-					} else if nj < 0 || nj >= m {
-						continue
-					}
-					q := ni*m + nj
-					if seen[q] {
-						continue
-					}
-					seen[q] = true
-					if dist[q] <= maxR && wind[(ni+i0)*m+nj] >= thr {
-						stack = append(stack, q)
-					}
-				}
-			}
+		// Connected gale-wind pixels within the cap: components of the row
+		// band (a grid of its own, periodic like g), the one holding the
+		// wind maximum.
+		band, err := grid.New(g.Lat[i0:i1+1], g.Lon)
+		if err != nil {
+			return count // a one-row band: the disc above is all there is
+		}
+		gale := make([]bool, rows*m)
+		for l, d := range dist {
+			gale[l] = d <= maxR && wind[i0*m+l] >= thr
+		}
+		lab, err := band.Components(gale)
+		if err != nil {
+			return count
+		}
+		for _, l := range lab.Pixels(lab.Labels[seed]) {
+			mark(int(l))
 		}
 	}
 	return count
