@@ -87,6 +87,9 @@
 // # Costs
 //
 // One pass over the inputs on one goroutine (libnetcdf), one sample in
-// memory at a time, every shard read once more for its digest. All inputs
-// stay open during the run (one file handle per block and mask).
+// memory at a time, every shard read once more for its digest. At most four
+// inputs are open at once (each open netCDF-4 file holds its own chunk
+// caches), so memory does not grow with the number of years; in time order
+// each input is opened once, with shuffle_seed an input may be reopened for
+// many samples (a few milliseconds each).
 package shard

@@ -35,15 +35,75 @@ type sample struct {
 	dayOfYear float64
 }
 
-// dataFile is one open data input (and its mask).
+// dataFile is one data input (and its mask). Its files are open only
+// while it is in the sources' small set of open files (acquire).
 type dataFile struct {
 	ref      pipeline.Input
 	scenario int // index into sources.scenarios
+	dataPath string
+	maskPath string
+	varNames []string
+	times    *ncio.TimeAxis
 	f        *ncio.File
 	vars     []*ncio.Var
-	times    *ncio.TimeAxis
 	mask     *ncio.File
 	maskVar  *ncio.Var
+}
+
+// maxOpen bounds the inputs open at once: every open netCDF-4 file keeps
+// its own chunk caches, so keeping all blocks open would make memory grow
+// with the number of years.
+const maxOpen = 4
+
+// release closes the files of d.
+func (d *dataFile) release() {
+	if d.f != nil {
+		d.f.Close()
+	}
+	if d.mask != nil {
+		d.mask.Close()
+	}
+	d.f, d.mask, d.vars, d.maskVar = nil, nil, nil, nil
+}
+
+// acquire makes sure d's files are open, closing the least recently used
+// input beyond maxOpen.
+func (s *sources) acquire(d *dataFile) error {
+	if i := slices.Index(s.open, d); i >= 0 {
+		s.open = append(append(s.open[:i:i], s.open[i+1:]...), d)
+		return nil
+	}
+	if len(s.open) >= maxOpen {
+		s.open[0].release()
+		s.open = s.open[1:]
+	}
+	f, err := ncio.Open(d.dataPath)
+	if err != nil {
+		return fmt.Errorf("shard: %w", err)
+	}
+	d.f = f
+	for _, n := range d.varNames {
+		v, err := f.Var(n)
+		if err != nil {
+			d.release()
+			return fmt.Errorf("shard: %w", err)
+		}
+		d.vars = append(d.vars, v)
+	}
+	if d.maskPath != "" {
+		m, err := ncio.Open(d.maskPath)
+		if err != nil {
+			d.release()
+			return fmt.Errorf("shard: %w", err)
+		}
+		d.mask = m
+		if d.maskVar, err = m.Var(MaskVar); err != nil {
+			d.release()
+			return fmt.Errorf("shard: %w", err)
+		}
+	}
+	s.open = append(s.open, d)
+	return nil
 }
 
 // sources are all inputs of a shard instance.
@@ -60,17 +120,14 @@ type sources struct {
 	unitsAttr string
 	calAttr   string
 	maskFill  *int8
+	open      []*dataFile // open inputs, least recently used first
 }
 
 func (s *sources) close() {
 	for _, d := range s.files {
-		if d.f != nil {
-			d.f.Close()
-		}
-		if d.mask != nil {
-			d.mask.Close()
-		}
+		d.release()
 	}
+	s.open = nil
 }
 
 func (s *sources) years() []int {
@@ -167,9 +224,10 @@ func openSources(job *pipeline.Job, maskMember string) (*sources, error) {
 				return s, err
 			}
 		}
+		d.release() // checked; reopened when its samples are written
 		for t, tm := range d.times.Times {
 			if tm.Year != year {
-				return s, fmt.Errorf("shard: time step %d of %s is %s, outside its block %d", t, d.f.Path(), tm, year)
+				return s, fmt.Errorf("shard: time step %d of %s is %s, outside its block %d", t, d.dataPath, tm, year)
 			}
 			start := ncio.CFTime{Year: year, Month: 1, Day: 1}
 			doy := s.calendar.Sub(tm, start).Hours() / 24
@@ -180,6 +238,7 @@ func openSources(job *pipeline.Job, maskMember string) (*sources, error) {
 }
 
 func (s *sources) openData(d *dataFile, path string) error {
+	d.dataPath = path
 	f, err := ncio.Open(path)
 	if err != nil {
 		return fmt.Errorf("shard: %w", err)
@@ -226,7 +285,7 @@ func (s *sources) openData(d *dataFile, path string) error {
 			}
 		}
 		chans = append(chans, ci)
-		d.vars = append(d.vars, v)
+		d.varNames = append(d.varNames, v.Name())
 	}
 	if len(chans) == 0 {
 		return fmt.Errorf("shard: %s has no (time, lat, lon) channel", path)
@@ -300,6 +359,7 @@ func (s *sources) openMask(d *dataFile, cands []pipeline.Input, member string) e
 		return fmt.Errorf("shard: %d masks for scenario %q block %s (members %s) (hint: set mask_member)", len(pick), in.Scenario, in.Block, strings.Join(ms, ", "))
 	}
 	path := fileNamed(pick[0].Files, MaskFile)
+	d.maskPath = path
 	f, err := ncio.Open(path)
 	if err != nil {
 		return fmt.Errorf("shard: %w", err)
@@ -325,7 +385,7 @@ func (s *sources) openMask(d *dataFile, cands []pipeline.Input, member string) e
 		return fmt.Errorf("shard: %w", err)
 	}
 	if ta.Len() != d.times.Len() {
-		return fmt.Errorf("shard: %s has %d time steps, its data %s %d (hint: label the same subset output)", path, ta.Len(), d.f.Path(), d.times.Len())
+		return fmt.Errorf("shard: %s has %d time steps, its data %s %d (hint: label the same subset output)", path, ta.Len(), d.dataPath, d.times.Len())
 	}
 	for i := range ta.Times {
 		if !ta.Times[i].Equal(d.times.Times[i]) {
@@ -437,6 +497,9 @@ func (s *sources) writeShard(path, set string, index int, xs []sample, deflate i
 	bits := make([]int32, nc*plane)
 	for i, smp := range xs {
 		d := smp.src
+		if err := s.acquire(d); err != nil {
+			return info, err
+		}
 		tm := d.times.Times[smp.t]
 		if d.times.UnitsAttr == s.unitsAttr {
 			times[i] = d.times.Values[smp.t]

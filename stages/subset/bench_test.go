@@ -8,7 +8,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"syscall"
 	"testing"
 	"time"
 
@@ -16,6 +15,7 @@ import (
 	"github.com/squall-climate/squall/pipeline"
 	"github.com/squall-climate/squall/stages/ncio"
 	"github.com/squall-climate/squall/stages/normalize"
+	"github.com/squall-climate/squall/stages/shard"
 )
 
 // benchChannels are the channels of a typical TC/AR campaign over the
@@ -224,9 +224,11 @@ func mustAtoi(s string) int {
 	return n
 }
 
-// TestMemoryChild is the child process of BenchmarkPeakMemory: it runs
-// subset for each raw file listed in SQUALL_MEM_FILES, fit-stats over all
-// of them and normalize for each, one after the other in one process.
+// TestMemoryChild is the child process of BenchmarkPeakMemory. With
+// SQUALL_MEM_KIND=fit it runs fit-stats over the fields.nc files listed in
+// SQUALL_MEM_FILES; with shard, shard over the normalized.nc files; with
+// block, subset + normalize of the one raw file listed (what one block's
+// instances do, each in its own process in a real run).
 func TestMemoryChild(t *testing.T) {
 	list := os.Getenv("SQUALL_MEM_FILES")
 	if list == "" {
@@ -234,58 +236,152 @@ func TestMemoryChild(t *testing.T) {
 	}
 	testWorkers = 0 // the production default
 	files := strings.Split(list, ",")
-	var fields []string
-	job := &pipeline.Job{Stage: "fit", Kind: "fit-stats", OutDir: t.TempDir(), Settings: pipeline.Values{}}
-	for _, s := range (normalize.FitKind{}).Settings() {
-		job.Settings[s.Name] = s.Default
-	}
-	for _, f := range files {
-		year := strings.TrimSuffix(strings.TrimPrefix(filepath.Base(f), "fields_"), ".nc")
-		out, err := runSubset(t, []string{f}, year, benchChannels, nil, defaults())
+	years := func(f string) string { return filepath.Base(filepath.Dir(f)) }
+	switch os.Getenv("SQUALL_MEM_KIND") {
+	case "block":
+		year := strings.TrimSuffix(strings.TrimPrefix(filepath.Base(files[0]), "fields_"), ".nc")
+		out, err := runSubset(t, files[:1], year, benchChannels, nil, defaults())
 		if err != nil {
 			t.Fatal(err)
 		}
-		fields = append(fields, out)
-		y := mustAtoi(year)
-		job.Campaign.Split.Train = append(job.Campaign.Split.Train, pipeline.Period{First: y, Last: y})
-		job.Inputs = append(job.Inputs, pipeline.Input{From: "subset", Scenario: "control", Block: year, Files: []string{out}})
+		runNormalize(t, out, os.Getenv("SQUALL_MEM_STATS"), year, "float16")
+	case "fit":
+		job := &pipeline.Job{Stage: "fit", Kind: "fit-stats", OutDir: t.TempDir(), Settings: pipeline.Values{}}
+		for _, s := range (normalize.FitKind{}).Settings() {
+			job.Settings[s.Name] = s.Default
+		}
+		for _, f := range files {
+			y := mustAtoi(years(f))
+			job.Campaign.Split.Train = append(job.Campaign.Split.Train, pipeline.Period{First: y, Last: y})
+			job.Inputs = append(job.Inputs, pipeline.Input{From: "subset", Scenario: "control", Block: years(f), Files: []string{f}})
+		}
+		if err := (normalize.FitKind{}).Run(context.Background(), job); err != nil {
+			t.Fatal(err)
+		}
+	case "shard":
+		job := &pipeline.Job{Stage: "shard", Kind: "shard", OutDir: t.TempDir(), Settings: pipeline.Values{}}
+		for _, s := range (shard.Kind{}).Settings() {
+			job.Settings[s.Name] = s.Default
+		}
+		// Shards smaller than a year, so that 1 and 8 years write shards
+		// of the same size (the output's chunk cache grows with the shard).
+		job.Settings["samples_per_shard"] = 16
+		for _, f := range files {
+			y := mustAtoi(years(f))
+			job.Campaign.Split.Train = append(job.Campaign.Split.Train, pipeline.Period{First: y, Last: y})
+			job.Inputs = append(job.Inputs, pipeline.Input{From: "norm", Scenario: "control", Block: years(f), Files: []string{f}})
+		}
+		if err := (shard.Kind{}).Run(context.Background(), job); err != nil {
+			t.Fatal(err)
+		}
 	}
-	if err := (normalize.FitKind{}).Run(context.Background(), job); err != nil {
-		t.Fatal(err)
-	}
-	for i, f := range fields {
-		runNormalize(t, f, filepath.Join(job.OutDir, normalize.StatsFile), job.Inputs[i].Block, "float16")
-	}
+	fmt.Printf("peak-rss-kB %s\n", vmHWM())
 }
 
-// BenchmarkPeakMemory reports the peak resident memory of a child process
-// running subset + fit-stats + normalize over 1 and over 8 years of the
-// generator's demo grid (SQUALL_BENCH_DAYS days a year, default 10), and
-// their ratio; streaming by time step keeps it near 1:
+// vmHWM is the process's peak resident size in kB (Linux /proc). The
+// child measures itself: the rusage maxrss a parent gets for a child
+// started by clone+exec can be the parent's own, because the child ran in
+// the parent's address space until exec.
+func vmHWM() string {
+	b, _ := os.ReadFile("/proc/self/status")
+	for _, l := range strings.Split(string(b), "\n") {
+		if f := strings.Fields(l); len(f) >= 2 && f[0] == "VmHWM:" {
+			return f[1]
+		}
+	}
+	return "0"
+}
+
+// BenchmarkPeakMemory reports the peak resident memory of child
+// processes, as the engine runs instances: fit-stats and shard (the
+// whole-campaign kinds) over 1 and over 8 years of the generator's demo
+// grid (SQUALL_BENCH_DAYS days a year, default 10), with their ratios
+// (streaming by time step keeps them near 1), and subset + normalize of
+// one block:
 //
 //	go test ./stages/subset -run XXX -bench PeakMemory -benchtime 1x
 func BenchmarkPeakMemory(b *testing.B) {
+	testWorkers = 0
+	defer func() { testWorkers = 2 }()
 	days := envInt("SQUALL_BENCH_DAYS", 10)
-	files := generate(b, "demo", days, 8)
+	raws := generate(b, "demo", days, 8)
+	// Prepare fields.nc and normalized.nc of every year in this process.
+	root := b.TempDir()
+	var fields, normed []string
+	for _, r := range raws {
+		year := strings.TrimSuffix(strings.TrimPrefix(filepath.Base(r), "fields_"), ".nc")
+		out, err := runSubset(b, []string{r}, year, benchChannels, nil, defaults())
+		if err != nil {
+			b.Fatal(err)
+		}
+		dir := filepath.Join(root, year)
+		os.MkdirAll(dir, 0o755)
+		f := filepath.Join(dir, normalize.FieldsFile)
+		if err := os.Rename(out, f); err != nil {
+			b.Fatal(err)
+		}
+		fields = append(fields, f)
+	}
+	stats := fitOnFields(b, fields)
+	for _, f := range fields {
+		n := runNormalize(b, f, stats, filepath.Base(filepath.Dir(f)), "float16")
+		dst := filepath.Join(filepath.Dir(f), normalize.NormalizedFile)
+		if err := os.Rename(n, dst); err != nil {
+			b.Fatal(err)
+		}
+		normed = append(normed, dst)
+	}
 	exe, err := os.Executable()
 	if err != nil {
 		b.Fatal(err)
 	}
-	peak := func(fs []string) float64 {
+	peak := func(kind string, fs []string) float64 {
 		cmd := exec.Command(exe, "-test.run=^TestMemoryChild$", "-test.count=1")
-		cmd.Env = append(os.Environ(), "SQUALL_MEM_FILES="+strings.Join(fs, ","))
-		if out, err := cmd.CombinedOutput(); err != nil {
+		cmd.Env = append(os.Environ(), "SQUALL_MEM_KIND="+kind, "SQUALL_MEM_FILES="+strings.Join(fs, ","), "SQUALL_MEM_STATS="+stats)
+		out, err := cmd.CombinedOutput()
+		if err != nil {
 			b.Fatalf("child: %v\n%s", err, out)
 		}
-		ru := cmd.ProcessState.SysUsage().(*syscall.Rusage)
-		return float64(ru.Maxrss) / 1024 // kB -> MB (Linux reports kB)
+		for _, l := range strings.Split(string(out), "\n") {
+			if f := strings.Fields(l); len(f) == 2 && f[0] == "peak-rss-kB" {
+				kb, _ := strconv.ParseFloat(f[1], 64)
+				return kb / 1024
+			}
+		}
+		b.Fatalf("child printed no peak: %s", out)
+		return 0
 	}
-	var one, eight float64
 	for i := 0; i < b.N; i++ {
-		one, eight = peak(files[:1]), peak(files)
+		f1, f8 := peak("fit", fields[:1]), peak("fit", fields)
+		s1, s8 := peak("shard", normed[:1]), peak("shard", normed)
+		blk := peak("block", raws[:1])
+		b.ReportMetric(f1, "fit-MB-1y")
+		b.ReportMetric(f8, "fit-MB-8y")
+		b.ReportMetric(f8/f1, "fit-ratio")
+		b.ReportMetric(s1, "shard-MB-1y")
+		b.ReportMetric(s8, "shard-MB-8y")
+		b.ReportMetric(s8/s1, "shard-ratio")
+		b.ReportMetric(blk, "block-MB")
 	}
-	b.ReportMetric(one, "MB-1-year")
-	b.ReportMetric(eight, "MB-8-years")
-	b.ReportMetric(eight/one, "ratio")
 	b.ReportMetric(0, "ns/op")
+}
+
+// fitOnFields runs fit-stats over fields files in per-year directories.
+func fitOnFields(tb testing.TB, fields []string) string {
+	tb.Helper()
+	out := tb.TempDir()
+	job := &pipeline.Job{Stage: "fit", Kind: "fit-stats", OutDir: out, Settings: pipeline.Values{}}
+	for _, s := range (normalize.FitKind{}).Settings() {
+		job.Settings[s.Name] = s.Default
+	}
+	for _, f := range fields {
+		year := filepath.Base(filepath.Dir(f))
+		y := mustAtoi(year)
+		job.Campaign.Split.Train = append(job.Campaign.Split.Train, pipeline.Period{First: y, Last: y})
+		job.Inputs = append(job.Inputs, pipeline.Input{From: "subset", Scenario: "control", Block: year, Files: []string{f}})
+	}
+	if err := (normalize.FitKind{}).Run(context.Background(), job); err != nil {
+		tb.Fatal(err)
+	}
+	return filepath.Join(out, normalize.StatsFile)
 }
