@@ -98,18 +98,29 @@ func BuildManifest(dir string) ([]OutputFile, error) {
 	return out, err
 }
 
-// Commit makes the outputs in workDir the outputs of rec.Key: it moves the
-// directory into the object tree, writes the receipt, and records rec in
-// one index transaction. rec.Outputs must describe workDir's files.
+// Commit makes the outputs in workDir the outputs of rec.Key (see
+// CommitFiles) and records rec in one index transaction.
 func (s *Store) Commit(workDir string, rec *Record) error {
-	final := s.ObjectDir(rec.Key)
+	if err := CommitFiles(s.dir, workDir, rec); err != nil {
+		return err
+	}
+	return s.put(rec)
+}
+
+// CommitFiles moves workDir into the object tree of the store in storeDir
+// as the outputs of rec.Key, fills in their stat values and writes the
+// receipt atomically. It never touches the index, so a cluster job may call
+// it; the coordinator folds the receipt in later (Fold). rec.Outputs must
+// describe workDir's files.
+func CommitFiles(storeDir, workDir string, rec *Record) error {
+	final := ObjectDirIn(storeDir, rec.Key)
 	if err := os.MkdirAll(filepath.Dir(final), 0o755); err != nil {
 		return err
 	}
 	if _, err := os.Stat(final); err == nil {
 		// Left by a run that died between the rename and the index update,
 		// or an altered copy: either way it is not trusted.
-		trash, err := os.MkdirTemp(filepath.Join(s.dir, "tmp"), "stale-")
+		trash, err := os.MkdirTemp(filepath.Join(storeDir, "tmp"), "stale-")
 		if err != nil {
 			return err
 		}
@@ -136,11 +147,14 @@ func (s *Store) Commit(workDir string, rec *Record) error {
 	if err != nil {
 		return err
 	}
-	if err := writeFileAtomic(s.receiptPath(rec.Key), b); err != nil {
+	if err := writeFileAtomic(ReceiptPathIn(storeDir, rec.Key), b); err != nil {
 		return fmt.Errorf("write receipt: %w", err)
 	}
-	return s.put(rec)
+	return nil
 }
+
+// Fold records a receipt written by a cluster job in the index.
+func (s *Store) Fold(rec *Record) error { return s.put(rec) }
 
 func (s *Store) put(rec *Record) error {
 	v, err := json.Marshal(rec)
@@ -214,7 +228,13 @@ func (p Problem) String() string { return p.File + " " + p.Reason }
 // deep false a file whose size, mtime and inode are as recorded is trusted
 // without reading it; otherwise (or when they differ) it is re-hashed.
 func (s *Store) CheckOutputs(rec *Record, deep bool) *Problem {
-	dir := s.ObjectDir(rec.Key)
+	return CheckOutputsIn(s.dir, rec, deep)
+}
+
+// CheckOutputsIn is CheckOutputs for the store in storeDir, without the
+// index (for cluster jobs).
+func CheckOutputsIn(storeDir string, rec *Record, deep bool) *Problem {
+	dir := ObjectDirIn(storeDir, rec.Key)
 	if _, err := os.Stat(dir); err != nil {
 		return &Problem{File: ".", Reason: "output directory missing"}
 	}

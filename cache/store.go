@@ -137,12 +137,16 @@ func (s *Store) Close() error {
 }
 
 // ObjectDir is where the outputs of the instance with this key live.
-func (s *Store) ObjectDir(key Digest) string {
+func (s *Store) ObjectDir(key Digest) string { return ObjectDirIn(s.dir, key) }
+
+// ObjectDirIn is ObjectDir for the store in storeDir.
+func ObjectDirIn(storeDir string, key Digest) string {
 	h := key.String()
-	return filepath.Join(s.dir, "objects", h[:2], h)
+	return filepath.Join(storeDir, "objects", h[:2], h)
 }
 
-func (s *Store) receiptPath(key Digest) string { return s.ObjectDir(key) + ".receipt.json" }
+// ReceiptPathIn is where the receipt of key's outputs lives.
+func ReceiptPathIn(storeDir string, key Digest) string { return ObjectDirIn(storeDir, key) + ".receipt.json" }
 
 // LogPath is where the error output of an instance attempt is kept.
 func (s *Store) LogPath(key Digest) string {

@@ -14,7 +14,8 @@ type CampaignInfo struct {
 	Regions   []Region          `json:"regions,omitempty"`
 }
 
-// Campaign sections a kind can declare it reads.
+// Campaign sections a kind can declare it reads. For per-block kinds the
+// scenarios section contributes only names and calendars to the key.
 const (
 	SectionScenarios = "scenarios"
 	SectionVariables = "variables"

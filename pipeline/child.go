@@ -7,7 +7,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"runtime/debug"
 
 	"github.com/squall-climate/squall/cache"
 )
@@ -39,13 +38,8 @@ func RunChild(ctx context.Context, jobPath string, reg *Registry, log io.Writer)
 		return fmt.Errorf("job %s: this squall has no stage kind %q", jobPath, job.Kind)
 	}
 	job.Log = log
-	defer func() {
-		// A bug in a stage must fail only its instance, with a trace.
-		if r := recover(); r != nil {
-			err = fmt.Errorf("stage %s crashed: %v\n%s", job.Stage, r, debug.Stack())
-		}
-	}()
-	if err := kind.Run(ctx, &job); err != nil {
+	// A bug in a stage must fail only its instance, with a trace.
+	if err := runKind(ctx, kind, &job); err != nil {
 		return err
 	}
 	files, err := cache.BuildManifest(job.OutDir)

@@ -479,3 +479,44 @@ stages:
 		}
 	}
 }
+
+// A per-block kind that reads the scenarios section must not rerun old
+// years when a year is added.
+type scenarioReader struct{ concatKind }
+
+func (scenarioReader) Name() string               { return "scenario-reader" }
+func (scenarioReader) CampaignSections() []string { return []string{pipeline.SectionScenarios} }
+
+func TestAddingAYearKeepsScenarioReadersOfOtherYears(t *testing.T) {
+	reg := testRegistry()
+	w := newWorld(t, map[string][]int{"control": {1990, 1991}})
+	write := func(period string) *pipeline.Plan {
+		f := filepath.Join(w.dir, "s.yaml")
+		os.WriteFile(f, []byte("campaign: s\nscenarios:\n  control: {files: data/control/*.nc, period: "+period+"}\nstages:\n  a: {kind: scenario-reader, inputs: [scenarios]}\n"), 0o644)
+		c, err := pipeline.Load(f, reg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s, err := cache.Open(c.StoreDir, cache.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer s.Close()
+		p, err := pipeline.NewPlan(c, s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := pipeline.Execute(context.Background(), p, s, pipeline.RunOptions{Jobs: 1, ChildCommand: childCommand}); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+	write("1990-1991")
+	w.writeData("control", 1992, "control 1992\n")
+	p := write("1990-1992")
+	for _, st := range p.Steps {
+		if want := st.Block == "1992"; (st.Action == pipeline.ActionRun) != want {
+			t.Errorf("%s: %s %s", st.Label(), st.Action, st.Reason)
+		}
+	}
+}

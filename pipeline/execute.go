@@ -88,16 +88,7 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 		opt.KillGrace = 5 * time.Second
 	}
 	start := time.Now()
-	rec := &RunRecord{
-		ID: start.UTC().Format("20060102T150405.000000000Z"), Campaign: p.Campaign.Info.Name,
-		CampaignFile: p.Campaign.File, Tool: opt.Tool, Started: start.UTC(), Jobs: opt.Jobs,
-		Info: p.Campaign.Info,
-	}
-	for _, st := range p.Campaign.Stages {
-		rec.Stages = append(rec.Stages, StageRecord{Name: st.Name, Kind: st.Kind.Name(), KindVersion: st.Kind.Version(),
-			Fan: st.Kind.Fan().String(), Inputs: st.Inputs, Settings: st.Settings})
-	}
-
+	rec := p.newRunRecord(start, opt.Tool, opt.Jobs)
 	n := len(p.Steps)
 	remaining := make([]int, n)
 	states := make([]string, n)
@@ -110,7 +101,7 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 		}
 	}
 	done := make(chan result)
-	running, finished, failed := 0, 0, 0
+	running, finished := 0, 0
 	var firstFailure string
 	stopping := false
 	emit := func(e Event) {
@@ -155,7 +146,6 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 				}
 			}
 		case StateFailed:
-			failed++
 			if firstFailure == "" {
 				firstFailure = r.st.Label() + ": " + firstLine(errText)
 			}
@@ -169,15 +159,41 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 			stopping = true
 		}
 	}
-	blocked := 0
+	err := p.finishRecord(rec, s, states, results, ctx.Err() != nil, firstFailure, start)
+	return rec, err
+}
+
+// newRunRecord starts the record of a run.
+func (p *Plan) newRunRecord(start time.Time, tool string, jobs int) *RunRecord {
+	rec := &RunRecord{
+		ID: start.UTC().Format("20060102T150405.000000000Z"), Campaign: p.Campaign.Info.Name,
+		CampaignFile: p.Campaign.File, Tool: tool, Started: start.UTC(), Jobs: jobs,
+		Info: p.Campaign.Info,
+	}
+	for _, st := range p.Campaign.Stages {
+		rec.Stages = append(rec.Stages, StageRecord{Name: st.Name, Kind: st.Kind.Name(), KindVersion: st.Kind.Version(),
+			Fan: st.Kind.Fan().String(), Inputs: st.Inputs, Settings: st.Settings})
+	}
+	return rec
+}
+
+// finishRecord fills in every instance's outcome, the counts and the
+// status, saves the record in the store and returns the run's error.
+func (p *Plan) finishRecord(rec *RunRecord, s *cache.Store, states []string, results []result, interrupted bool, firstFailure string, start time.Time) error {
+	blocked, failed := 0, 0
 	rec.Counts = map[string]int{}
 	for i, st := range p.Steps {
 		if states[i] == "" {
 			states[i] = StateNotRun
 			if blockedByFailure(st, states) {
 				states[i] = StateBlocked
-				blocked++
 			}
+		}
+		switch states[i] {
+		case StateBlocked:
+			blocked++
+		case StateFailed:
+			failed++
 		}
 		rec.Counts[states[i]]++
 		r := results[i]
@@ -202,7 +218,7 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 	rec.Seconds = time.Since(start).Seconds()
 	var err error
 	switch {
-	case ctx.Err() != nil:
+	case interrupted:
 		rec.Status, err = "interrupted", ErrInterrupted
 	case failed > 0:
 		rec.Status, err = "failed", &StageFailedError{Failed: failed, Blocked: blocked, First: firstFailure}
@@ -212,7 +228,7 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 	if serr := SaveRunRecord(s.Dir(), rec); serr != nil && err == nil {
 		err = fmt.Errorf("save run record: %w", serr)
 	}
-	return rec, err
+	return err
 }
 
 func blockedByFailure(st *Step, states []string) bool {

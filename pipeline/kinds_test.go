@@ -95,7 +95,7 @@ func (sumKind) Run(ctx context.Context, job *pipeline.Job) error {
 }
 
 func testRegistry() *pipeline.Registry {
-	return pipeline.NewRegistry(concatKind{}, sumKind{fan: pipeline.FanCampaign}, sumKind{fan: pipeline.FanMembers})
+	return pipeline.NewRegistry(concatKind{}, sumKind{fan: pipeline.FanCampaign}, sumKind{fan: pipeline.FanMembers}, scenarioReader{})
 }
 
 // countChild appends a line to $SQUALL_TEST_COUNT so tests can tell how

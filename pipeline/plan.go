@@ -151,7 +151,7 @@ func sectionsOf(k Kind, info *CampaignInfo) []byte {
 	for _, s := range secs {
 		switch s {
 		case SectionScenarios:
-			m[s] = info.Scenarios
+			m[s] = scenariosFor(k, info.Scenarios)
 		case SectionVariables:
 			m[s] = info.Variables
 		case SectionChannels:
@@ -165,13 +165,40 @@ func sectionsOf(k Kind, info *CampaignInfo) []byte {
 	return canonicalJSON(m)
 }
 
+// scenariosFor is the scenarios section as a kind's key sees it. A
+// per-block kind already has its own scenario and block in the key, so it
+// sees only names and calendars: adding a year to a scenario must not rerun
+// the other years. A fan-in kind sees periods and blocks too (a year with
+// no events still counts as a zero in a trend).
+func scenariosFor(k Kind, scs []ScenarioInfo) any {
+	if f := k.Fan(); f != FanBlock && f != FanMembers {
+		return scs
+	}
+	type stable struct {
+		Name     string `json:"name"`
+		Calendar string `json:"calendar,omitempty"`
+	}
+	out := make([]stable, len(scs))
+	for i, sc := range scs {
+		out[i] = stable{sc.Name, sc.Calendar}
+	}
+	return out
+}
+
 func (p *Plan) key(st *Step) cache.Digest {
+	return instanceKey(st.Stage.Kind.Name(), st.Stage.Kind.Version(), st.Scenario, st.Block, st.Member,
+		canonicalJSON(st.Settings), cache.Sum(sectionsOf(st.Stage.Kind, &p.Campaign.Info)), p.inputDigests(st))
+}
+
+// instanceKey is the cache key of an instance; cluster jobs compute it
+// too, from the receipts of their upstream instances. ins must be sorted
+// by label.
+func instanceKey(kind string, version int, scenario, block, member string, settings []byte, sections cache.Digest, ins []cache.InputDigest) cache.Digest {
 	k := cache.NewKey("instance/v1")
-	k.String(st.Stage.Kind.Name()).Int(int64(st.Stage.Kind.Version()))
-	k.String(st.Scenario).String(st.Block).String(st.Member)
-	k.Bytes(canonicalJSON(st.Settings))
-	k.Digest(cache.Sum(sectionsOf(st.Stage.Kind, &p.Campaign.Info)))
-	ins := p.inputDigests(st)
+	k.String(kind).Int(int64(version))
+	k.String(scenario).String(block).String(member)
+	k.Bytes(settings)
+	k.Digest(sections)
 	k.Int(int64(len(ins)))
 	for _, in := range ins {
 		k.String(in.Label).Digest(in.Digest)

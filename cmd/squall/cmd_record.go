@@ -73,3 +73,19 @@ func newExecInstanceCmd(e *env) *cobra.Command {
 		},
 	}
 }
+
+func newExecJobCmd(e *env) *cobra.Command {
+	return &cobra.Command{
+		Use:    "exec-job JOBFILE",
+		Short:  "Run one stage instance as a cluster job (used by squall run --site)",
+		Hidden: true,
+		Args:   argsExactly(1, "one job file"),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			err := pipeline.RunClusterJob(cmd.Context(), args[0], e.registry, e.stderr)
+			if err != nil {
+				fmt.Fprintln(e.stderr, "error: "+err.Error())
+			}
+			return err
+		},
+	}
+}

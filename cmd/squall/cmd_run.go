@@ -3,24 +3,33 @@ package main
 import (
 	"encoding/json"
 	"fmt"
+	"os"
 	"runtime"
 
 	"github.com/spf13/cobra"
 
 	"github.com/squall-climate/squall/cache"
 	"github.com/squall-climate/squall/pipeline"
+	"github.com/squall-climate/squall/scheduler"
+	schedall "github.com/squall-climate/squall/scheduler/all"
 )
 
 func newRunCmd(e *env) *cobra.Command {
 	var jobs int
 	var failFast, asJSON bool
-	var reportPath string
+	var reportPath, site string
 	cmd := &cobra.Command{
 		Use:   "run CAMPAIGN",
 		Short: "Run every stage instance that is not up to date; reuse the rest",
 		Args:  argsExactly(1, "one campaign file"),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			rec, err := runCampaign(cmd, e, args[0], jobs, failFast, asJSON)
+			var rec *pipeline.RunRecord
+			var err error
+			if site != "" {
+				rec, err = runOnSite(cmd, e, args[0], site, asJSON)
+			} else {
+				rec, err = runCampaign(cmd, e, args[0], jobs, failFast, asJSON)
+			}
 			if rec != nil && !asJSON {
 				printRunSummary(e, rec)
 			}
@@ -41,6 +50,7 @@ func newRunCmd(e *env) *cobra.Command {
 	cmd.Flags().IntVarP(&jobs, "jobs", "j", runtime.NumCPU(), "instances to run at once")
 	cmd.Flags().BoolVar(&failFast, "fail-fast", false, "stop starting new instances after the first failure (default: independent instances continue)")
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print progress and the summary as JSON lines")
+	cmd.Flags().StringVar(&site, "site", "", "run every instance as a job of the batch system in this site profile (YAML) instead of on this machine")
 	cmd.Flags().StringVar(&reportPath, "report", "", "where to write the HTML report (default <store>/report.html; - for none)")
 	return cmd
 }
@@ -84,4 +94,37 @@ func firstLineOf(s string) string {
 		}
 	}
 	return s
+}
+
+// runOnSite runs the campaign's instances as jobs of a site's batch
+// system; the coordinator (this process) holds the store and folds the
+// jobs' receipts into it.
+func runOnSite(cmd *cobra.Command, e *env, file, site string, asJSON bool) (*pipeline.RunRecord, error) {
+	c, err := pipeline.Load(file, e.registry)
+	if err != nil {
+		return nil, err
+	}
+	_, engine, err := schedall.Load(site)
+	if err != nil {
+		return nil, &pipeline.InvalidError{Err: err}
+	}
+	s, err := cache.Open(c.StoreDir, cache.Options{Command: "squall run --site " + site + " " + file})
+	if err != nil {
+		return nil, err
+	}
+	defer s.Close()
+	p, err := pipeline.NewPlan(c, s)
+	if err != nil {
+		return nil, err
+	}
+	self, err := os.Executable()
+	if err != nil {
+		return nil, err
+	}
+	prog := newProgress(e, asJSON)
+	defer prog.close()
+	return pipeline.ExecuteCluster(cmd.Context(), p, s, scheduler.ForPipeline(engine), pipeline.ClusterOptions{
+		Tool: "squall " + version, OnEvent: prog.event,
+		Argv: func(job string) []string { return []string{self, "exec-job", job} },
+	})
 }

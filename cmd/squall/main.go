@@ -116,7 +116,7 @@ warnings; decisions about risk belong to official forecast agencies.
 	})
 	root.AddCommand(
 		newRunCmd(e), newPlanCmd(e), newStatusCmd(e), newKindsCmd(e), newGraphCmd(e),
-		newStoreCmd(e), newRecordCmd(e), newCompareCmd(e), newExecInstanceCmd(e), newDemoCmd(e),
+		newStoreCmd(e), newRecordCmd(e), newCompareCmd(e), newExecInstanceCmd(e), newExecJobCmd(e), newDemoCmd(e),
 	)
 	return root
 }
