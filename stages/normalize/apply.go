@@ -241,6 +241,19 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 			o := stepOut{f32: make([][]float32, len(vars)), bits: make([][]int32, len(vars)),
 				errs: make([][3]float64, len(vars)), cnt: make([]int64, len(vars))}
 			for i, av := range vars {
+				if f := ps[i].f32; f != nil && !half {
+					// The common case, in place: float in, float out.
+					off, sc := av.tr.Offset, av.tr.Scale
+					for j, x := range f {
+						if x != x {
+							f[j] = FillValue
+						} else {
+							f[j] = float32((float64(x) - off) / sc)
+						}
+					}
+					o.f32[i] = f
+					continue
+				}
 				y := av.apply(ps[i])
 				if !half {
 					f := make([]float32, len(y))

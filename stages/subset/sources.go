@@ -65,6 +65,7 @@ type planned struct {
 	timeCal  string
 	land     []float32 // output-box land fraction, or nil
 	notes    []string
+	bufs     *bufPool
 }
 
 func (p *planned) close() {
@@ -90,7 +91,7 @@ func namesFor(std string, mapping map[string]string) []string {
 // steps, levels and a window. On error the returned plan (if any) still
 // holds files to close.
 func plan(channels []pipeline.Channel, mapping map[string]string, paths []string, year int, expectCal string, o *options) (*planned, error) {
-	p := &planned{}
+	p := &planned{bufs: &bufPool{}}
 	paths = append([]string(nil), paths...)
 	sort.Strings(paths)
 	for _, path := range paths {

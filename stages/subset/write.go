@@ -6,6 +6,7 @@ import (
 	"math"
 	"path/filepath"
 	"strings"
+	"sync"
 
 	"github.com/squall-climate/squall/stages/ncio"
 	"github.com/squall-climate/squall/stages/stream"
@@ -127,7 +128,7 @@ func (p *planned) readWindow(v *ncio.Var, lead, leadCount []int) ([][]float32, e
 	for _, c := range leadCount {
 		nk *= c
 	}
-	buf := make([]float32, nk*plane)
+	buf := p.bufs.get(nk * plane)
 	start := append(append([]int(nil), lead...), w.row0, 0)
 	count := append(append([]int(nil), leadCount...), w.nrow, 0)
 	if len(w.cols) == 1 {
@@ -140,10 +141,11 @@ func (p *planned) readWindow(v *ncio.Var, lead, leadCount []int) ([][]float32, e
 		off := 0
 		for _, sp := range w.cols {
 			start[len(lead)+1], count[len(lead)+1] = sp.start, sp.n
-			tmp := make([]float32, nk*w.nrow*sp.n)
+			tmp := p.bufs.get(nk * w.nrow * sp.n)
 			if err := v.ReadFloat32Into(tmp, start, count); err != nil {
 				return nil, err
 			}
+			defer p.bufs.put(tmp)
 			for k := 0; k < nk; k++ {
 				for r := 0; r < w.nrow; r++ {
 					copy(buf[k*plane+r*w.ncol+off:k*plane+r*w.ncol+off+sp.n], tmp[(k*w.nrow+r)*sp.n:(k*w.nrow+r+1)*sp.n])
@@ -298,10 +300,12 @@ func (p *planned) write(ctx context.Context, path string, prov ncio.Provenance, 
 		p.readStep,
 		func(t int, d *stepData) ([][]float32, error) {
 			out := make([][]float32, len(p.channels))
-			full := make([]float32, plane)
+			full := p.bufs.get(plane)
+			defer p.bufs.put(full)
+			defer d.release(p.bufs)
 			for i, ch := range p.channels {
 				ch.compute(d, full)
-				box := make([]float32, ny*nx)
+				box := p.bufs.get(ny * nx)
 				p.win.crop(box, full)
 				if ch.out != nil {
 					ch.out.Apply32(box)
@@ -315,6 +319,7 @@ func (p *planned) write(ctx context.Context, path string, prov ncio.Provenance, 
 				if err := w.WriteFloat32(ch.name, []int{t, 0, 0}, []int{1, ny, nx}, out[i]); err != nil {
 					return err
 				}
+				p.bufs.put(out[i])
 			}
 			return nil
 		})
@@ -322,6 +327,43 @@ func (p *planned) write(ctx context.Context, path string, prov ncio.Provenance, 
 		return 0, err
 	}
 	return len(p.keep), w.Close()
+}
+
+// bufPool recycles the float32 buffers of the step loop: a step of the
+// bench grid reads about 2 MB, and allocating it afresh every step makes
+// the garbage collector and page faults a visible share of the run.
+type bufPool struct {
+	mu   sync.Mutex
+	free map[int][][]float32
+}
+
+func (bp *bufPool) get(n int) []float32 {
+	bp.mu.Lock()
+	defer bp.mu.Unlock()
+	if l := bp.free[n]; len(l) > 0 {
+		b := l[len(l)-1]
+		bp.free[n] = l[:len(l)-1]
+		return b
+	}
+	return make([]float32, n)
+}
+
+func (bp *bufPool) put(b []float32) {
+	bp.mu.Lock()
+	defer bp.mu.Unlock()
+	if bp.free == nil {
+		bp.free = map[int][][]float32{}
+	}
+	bp.free[len(b)] = append(bp.free[len(b)], b)
+}
+
+// release returns the step's slabs to the pool.
+func (d *stepData) release(bp *bufPool) {
+	for _, sl := range d.slabs {
+		if len(sl) > 0 {
+			bp.put(sl[0][:len(sl)*len(sl[0])]) // the levels are consecutive parts of one buffer
+		}
+	}
 }
 
 func nanToFill(xs []float32) []float32 {
