@@ -223,6 +223,9 @@ func (p *planned) resolve(r request, mapping map[string]string, year int) (*sour
 				s.axisDims[1] = lv.Dim
 				s.hybrid = lv.Kind == ncio.HybridSigmaPressure
 				s.needAll = s.hybrid
+				if lv.P0Assumed {
+					p.notes = append(p.notes, fmt.Sprintf("%s: %s names a p0 it does not contain; p0 = %g Pa assumed (CAM convention)", r.label, f.Path(), lv.P0))
+				}
 			}
 		} else if err := sameLevels(s.lv, lv); err != nil {
 			return nil, fmt.Errorf("subset: %s: variable %q in %s: %v than in the block's other files", r.label, v.Name(), f.Path(), err)
