@@ -79,7 +79,6 @@ func Generate(ctx context.Context, o Options) (Summary, error) {
 	if err := o.Validate(); err != nil {
 		return Summary{}, err
 	}
-	keepHeap()
 	start := time.Now()
 	sum := Summary{Dir: o.Dir}
 	if err := os.MkdirAll(o.Dir, 0o755); err != nil {

@@ -29,6 +29,7 @@ type File struct {
 // reading and loads its metadata. Errors name the file and say plainly
 // what is wrong: missing, not a netCDF file, truncated or damaged.
 func Open(path string) (*File, error) {
+	keepHeap()
 	st, err := os.Stat(path)
 	switch {
 	case errors.Is(err, os.ErrNotExist):

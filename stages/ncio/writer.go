@@ -69,6 +69,7 @@ type wvar struct {
 // Create creates a netCDF-4 (HDF5) file at path, replacing any file of
 // that name when Close succeeds. Data goes to a temporary sibling first.
 func Create(path string) (*Writer, error) {
+	keepHeap()
 	dir := filepath.Dir(path)
 	tmp := filepath.Join(dir, "."+filepath.Base(path)+".partial")
 	ds, err := createNetCDF4(tmp)
