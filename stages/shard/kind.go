@@ -100,9 +100,11 @@ func (k Kind) Run(ctx context.Context, job *pipeline.Job) error {
 		return fmt.Errorf("shard: %w", err)
 	}
 	m := &Manifest{Format: ManifestFormat, Kind: k.Name(), KindVersion: k.Version(), Encoding: src.encoding,
-		Channels: src.channels, NLat: len(src.lat), NLon: len(src.lon), Classes: src.classes,
+		Channels: src.channels, NLat: len(src.lat), NLon: len(src.lon), Classes: append([]string{}, src.classes...),
 		BytesPerSample: src.bytesPerSample()}
-	m.Split = SplitInfo{Method: "campaign", GapDays: gap}
+	// Empty lists, not null, so readers need no special case.
+	m.Split = SplitInfo{Method: "campaign", GapDays: gap, Train: []int{}, Validate: []int{}, Test: []int{}, Unused: []int{}}
+	m.Shards = []ShardInfo{}
 	if len(fr) > 0 {
 		m.Split.Method, m.Split.Fractions = "fractions", fr
 	}
