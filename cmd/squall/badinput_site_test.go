@@ -11,7 +11,9 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -218,4 +220,94 @@ func TestBadInputSiteProfilesAndReferences(t *testing.T) {
 			}
 		})
 	}
+	// Hostile values that are legitimate text (a work directory, a scratch
+	// path, words of the training command) are accepted and quoted: the
+	// emitted local scripts, run with bash, hand every word to the trainer
+	// verbatim, run nothing else, and write only below the work directory
+	// and the scratch path.
+	t.Run("hostile values reach the trainer verbatim", func(t *testing.T) {
+		site := filepath.Join(dir, "site")
+		recorder := filepath.Join(site, "bin", "trainer")
+		os.MkdirAll(filepath.Dir(recorder), 0o755)
+		argsFile := filepath.Join(site, "trainer.args")
+		os.WriteFile(recorder, []byte("#!/bin/bash\nprintf '%s\\0' \"$SQUALL_RANK\" \"$@\" >>"+relShellQuote(argsFile)+"\n"), 0o755)
+		scratch := filepath.Join(site, "scratch $(touch PWNED_S) `touch PWNED_T`")
+		hostile := []string{"$(touch PWNED1)", "`touch PWNED2`", "a;touch PWNED3", "'; touch PWNED4; '", "x\ny", "--rm", "-n", "*", "~", "$HOME"}
+		var words []string
+		for _, w := range append([]string{recorder}, hostile...) {
+			words = append(words, strconvQuoteYAML(w))
+		}
+		profile := "engine: local\nnode:\n  cores: 2\n  scratch: {path: " + strconvQuoteYAML(scratch) + ", size: 1GB}\nwalltime: 48h\n"
+		jobs := "\n      work_dir: " + strconvQuoteYAML("runs/$(touch PWNED_W);x") + "\n      train_command: [" + strings.Join(words, ", ") + "]"
+		os.WriteFile(filepath.Join(dir, "p.yaml"), []byte(profile), 0o644)
+		text := strings.NewReplacer("%PROFILE%", "p.yaml", "%JOBS%", jobs, "%TRUTH%", goodTruth).Replace(relSiteCampaign)
+		// The good train_command line is replaced by the hostile one.
+		text = strings.Replace(text, "      train_command: [python, train.py, --manifest, \"{manifest}\"]\n", "", 1)
+		os.WriteFile(f, []byte(text), 0o644)
+		code, out, errs := relSquall(t, "run", "--report", "-", "-j", "2", f)
+		if code != exitOK {
+			t.Fatalf("hostile but legitimate values: exit %d\n%s%s", code, out, errs)
+		}
+		subs, _ := filepath.Glob(filepath.Join(dir, ".squall", "objects", "*", "*", "submit.sh"))
+		var submit string
+		for _, p := range subs {
+			if b, _ := os.ReadFile(filepath.Join(filepath.Dir(p), "train.job.sh")); strings.Contains(string(b), "PWNED1") {
+				submit = p
+			}
+		}
+		if submit == "" {
+			t.Fatalf("no emitted scripts with the hostile command among %v", subs)
+		}
+		// Run what a person would run at the site, from a copy of the
+		// emitted directory.
+		emitted := filepath.Join(site, "emitted")
+		if out, err := exec.Command("cp", "-r", filepath.Dir(submit), emitted).CombinedOutput(); err != nil {
+			t.Fatalf("cp: %v %s", err, out)
+		}
+		before := relSnapshot(t, dir)
+		cmd := exec.Command("bash", filepath.Join(emitted, "submit.sh"))
+		cmd.Dir = site
+		cmd.Env = append(os.Environ(), "HOME="+site)
+		if out, err := cmd.CombinedOutput(); err != nil {
+			t.Fatalf("bash submit.sh: %v\n%s", err, out)
+		}
+		got, err := os.ReadFile(argsFile)
+		if err != nil {
+			t.Fatalf("the trainer never ran: %v", err)
+		}
+		want := strings.Join(append([]string{"0"}, hostile...), "\x00") + "\x00"
+		if string(got) != want {
+			t.Errorf("the trainer received %q\nwant %q", got, want)
+		}
+		added, removed, changed := relDiff(before, relSnapshot(t, dir))
+		work := "runs/$(touch PWNED_W);x"
+		for _, p := range added {
+			rel, _ := filepath.Rel(dir, filepath.Join(dir, p))
+			ok := strings.HasPrefix(rel, work) || strings.HasPrefix(rel, "site/scratch $(touch PWNED_S) `touch PWNED_T`") ||
+				rel == "site/trainer.args" || rel == "runs"
+			if !ok {
+				t.Errorf("the emitted scripts wrote %s, outside the work directory and the scratch path", p)
+			}
+			if strings.Contains(filepath.Base(p), "PWNED") && !strings.Contains(p, "$(touch") {
+				t.Errorf("a hostile value ran a command: %s", p)
+			}
+		}
+		if len(removed)+len(changed) > 0 {
+			t.Errorf("the emitted scripts removed %v and changed %v", removed, changed)
+		}
+		if _, err := os.Stat(filepath.Join(dir, work, "checkpoints", "TRAINING_DONE")); err != nil {
+			t.Errorf("the segment did not finish: %v", err)
+		}
+	})
+}
+
+// strconvQuoteYAML writes s as a YAML double-quoted scalar.
+func strconvQuoteYAML(s string) string {
+	b, _ := json.Marshal(s)
+	return string(b)
+}
+
+// relShellQuote quotes a path for a bash script of our own.
+func relShellQuote(s string) string {
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
 }
