@@ -61,6 +61,12 @@ func (v Values) Floats(name string) []float64 {
 	switch x := v.get(name).(type) {
 	case []float64:
 		return append([]float64(nil), x...)
+	case []int:
+		out := make([]float64, len(x))
+		for i, e := range x {
+			out[i] = float64(e)
+		}
+		return out
 	case []any:
 		out := make([]float64, len(x))
 		for i, e := range x {
