@@ -10,6 +10,7 @@ package main
 // that instance's log.
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"os"
@@ -301,10 +302,14 @@ func TestBadInputSiteProfilesAndReferences(t *testing.T) {
 	})
 }
 
-// strconvQuoteYAML writes s as a YAML double-quoted scalar.
+// strconvQuoteYAML writes s as a YAML double-quoted scalar (JSON string
+// syntax, which YAML 1.2 accepts, without HTML escapes).
 func strconvQuoteYAML(s string) string {
-	b, _ := json.Marshal(s)
-	return string(b)
+	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	enc.SetEscapeHTML(false)
+	enc.Encode(s)
+	return strings.TrimSuffix(b.String(), "\n")
 }
 
 // relShellQuote quotes a path for a bash script of our own.
