@@ -318,6 +318,21 @@ func pick(t *csvTable, title, note string, want []string, keep func(*csvTable, [
 			out.Columns = append(out.Columns, name)
 		}
 	}
+	// A column holding numbers marks its empty cells "–": the scores
+	// leave a ratio empty when it is undefined (precision without any
+	// detection, say), and a blank cell would read as a value lost.
+	numeric := make([]bool, len(idx))
+	for k, i := range idx {
+		for _, rec := range t.rows {
+			if keep(t, rec) && i < len(rec) {
+				if _, err := strconv.ParseFloat(strings.TrimSpace(rec[i]), 64); err == nil {
+					numeric[k] = true
+					break
+				}
+			}
+		}
+	}
+	undefined := false
 	for _, rec := range t.rows {
 		if !keep(t, rec) {
 			continue
@@ -327,8 +342,15 @@ func pick(t *csvTable, title, note string, want []string, keep func(*csvTable, [
 			if i < len(rec) {
 				row[k] = fmtCell(rec[i])
 			}
+			if row[k] == "" && numeric[k] {
+				row[k] = "–"
+				undefined = true
+			}
 		}
 		out.Rows = append(out.Rows, row)
+	}
+	if undefined {
+		out.Note = strings.TrimSpace(out.Note + " – marks a score that is undefined for that row (a ratio with nothing to divide by).")
 	}
 	return out
 }

@@ -33,7 +33,14 @@
 // (maps as embedded PNG data inside the SVG): no script, no web font, no
 // reference to any network resource, so it opens offline and prints.
 // Plot text uses Liberation Sans, the font gonum/plot measures with; the
-// page asks for it, then Arial or Helvetica, which share its metrics. The
+// page asks for it, then Arial or Helvetica, which share its metrics.
+// Tick labels are written to the precision of the tick spacing ("0.3",
+// never the binary residue of 0.1+0.2). The class-fraction chart lays its
+// bars out horizontally, one row per label output, so sweep members' long
+// names stay legible; the stage graph routes edges through the gutters
+// between boxes, never under one. Undefined scores (empty in the evaluate
+// kind's CSV) show as "–". Tests check that no plot text overlaps other
+// text or is cut off, with Liberation Sans glyph metrics. The
 // output is deterministic: the same Input and outputs give the same bytes
 // (Input.When is shown only when set).
 //

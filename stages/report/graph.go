@@ -82,8 +82,13 @@ type graphPlotter struct {
 	maxRow int
 }
 
+// graphMargin is the room above the top row and below the bottom one, in
+// rows: half a row for the boxes, and a quarter more so that an edge
+// running along the outermost row gutters is not at the picture's edge.
+const graphMargin = 0.75
+
 func (g *graphPlotter) DataRange() (xmin, xmax, ymin, ymax float64) {
-	return -0.5, float64(g.maxCol) + 0.5, -0.5, float64(g.maxRow) + 0.5
+	return -0.5, float64(g.maxCol) + 0.5, -graphMargin, float64(g.maxRow) + graphMargin
 }
 
 const (
@@ -98,6 +103,8 @@ func (g *graphPlotter) Plot(c draw.Canvas, p *plot.Plot) {
 		// Rows from the top.
 		pos[s.Name] = vg.Point{X: tx(float64(s.depth)), Y: ty(float64(g.maxRow - s.row))}
 	}
+	colPitch := tx(1) - tx(0)
+	rowPitch := ty(1) - ty(0)
 	// Edges first, under the boxes.
 	edge := draw.LineStyle{Color: colMuted, Width: 0.8}
 	for _, s := range g.stages {
@@ -107,14 +114,9 @@ func (g *graphPlotter) Plot(c draw.Canvas, p *plot.Plot) {
 			if !ok {
 				continue
 			}
-			a := vg.Point{X: from.X + boxW/2, Y: from.Y}
-			b := vg.Point{X: to.X - boxW/2 - 1, Y: to.Y}
-			mid := (a.X + b.X) / 2
-			var path vg.Path
-			path.Move(a)
-			path.CubeTo(vg.Point{X: mid, Y: a.Y}, vg.Point{X: mid, Y: b.Y}, b)
 			c.SetLineStyle(edge)
-			c.Stroke(path)
+			c.Stroke(edgePath(from, to, colPitch, rowPitch))
+			b := vg.Point{X: to.X - boxW/2 - 1, Y: to.Y}
 			var head vg.Path
 			head.Move(b)
 			head.Line(vg.Point{X: b.X - 6, Y: b.Y + 3})
@@ -158,6 +160,40 @@ func (g *graphPlotter) Plot(c draw.Canvas, p *plot.Plot) {
 			}
 		}
 	}
+}
+
+// edgePath runs an edge from the right side of the box centred at from
+// to the left side of the box centred at to, only through the gutters
+// between columns and rows, so that it never passes under a box (where it
+// would vanish and seem to start from whatever box it re-emerges at).
+// Between neighbouring columns it is one S-curve in the gutter; across
+// more columns it drops, in the gutter after the source, to the row gutter
+// on the source's side of the target, runs along it, and rises into the
+// target in the gutter before it.
+func edgePath(from, to vg.Point, colPitch, rowPitch vg.Length) vg.Path {
+	a := vg.Point{X: from.X + boxW/2, Y: from.Y}
+	b := vg.Point{X: to.X - boxW/2 - 1, Y: to.Y}
+	var path vg.Path
+	path.Move(a)
+	scurve := func(p, q vg.Point) {
+		mid := (p.X + q.X) / 2
+		path.CubeTo(vg.Point{X: mid, Y: p.Y}, vg.Point{X: mid, Y: q.Y}, q)
+	}
+	gap := colPitch - boxW // width of a column gutter
+	if to.X-from.X <= colPitch*1.5 || gap <= 0 {
+		scurve(a, b)
+		return path
+	}
+	lane := to.Y + rowPitch/2 // the row gutter above the target
+	if from.Y < to.Y {
+		lane = to.Y - rowPitch/2 // below it, when the source is lower
+	}
+	l1 := vg.Point{X: a.X + gap, Y: lane}
+	l2 := vg.Point{X: to.X - boxW/2 - gap, Y: lane}
+	scurve(a, l1)
+	path.Line(l2)
+	scurve(l2, b)
+	return path
 }
 
 func tally(s *stageSummary) string {
@@ -214,7 +250,7 @@ func graphSVG(stages []*stageSummary) (template.HTML, error) {
 	p.HideAxes()
 	p.Add(g)
 	w := vg.Length(g.maxCol+1) * (boxW + 46)
-	h := vg.Length(g.maxRow+1) * (boxH + 18)
+	h := vg.Length(float64(g.maxRow)+2*graphMargin) * (boxH + 18)
 	return plotSVG(p, w, h, "stage graph with instance states")
 }
 

@@ -76,6 +76,13 @@ func restyle(s *text.Style, size vg.Length, c color.Color) {
 
 // newPlot makes a plot in the page's style.
 func newPlot(title, xlabel, ylabel string) *plot.Plot {
+	p, _ := newPlotGrid(title, xlabel, ylabel)
+	return p
+}
+
+// newPlotGrid is newPlot that also returns the plot's grid, for charts
+// that drop the grid lines of a category axis.
+func newPlotGrid(title, xlabel, ylabel string) (*plot.Plot, *plotter.Grid) {
 	p := plot.New()
 	p.BackgroundColor = nil // transparent: the figure frame is the page's
 	p.Title.Text = title
@@ -90,11 +97,13 @@ func newPlot(title, xlabel, ylabel string) *plot.Plot {
 		ax.Tick.LineStyle.Width = 0.5
 		ax.Padding = 2
 	}
-	p.X.Tick.Marker = plainTicks{}
-	p.Y.Tick.Marker = plainTicks{}
+	p.X.Tick.Marker = niceTicks{}
+	p.Y.Tick.Marker = niceTicks{}
 	p.X.Label.Text = xlabel
 	p.Y.Label.Text = ylabel
 	restyle(&p.Legend.TextStyle, 9.5, colInk)
+	// Without padding the entries' ascenders and descenders touch.
+	p.Legend.Padding = 2
 	p.Legend.Top = true
 	p.Legend.Left = true
 	p.Legend.ThumbnailWidth = 14
@@ -104,7 +113,7 @@ func newPlot(title, xlabel, ylabel string) *plot.Plot {
 	g.Vertical.Width = 0.5
 	g.Horizontal.Width = 0.5
 	p.Add(g)
-	return p
+	return p, g
 }
 
 // svg renders a drawing function into inline SVG markup fit for an HTML
@@ -297,6 +306,7 @@ func mapSVG(m gridMap) (template.HTML, error) {
 	restyle(&cp.X.Tick.Label, 9, colMuted)
 	cp.X.LineStyle.Width = 0
 	cp.X.Tick.LineStyle.Color = colMuted
+	cp.X.Tick.Marker = niceTicks{}
 	// Keep degrees square: the data area is sized from the view's extent.
 	wDeg, hDeg := p.X.Max-p.X.Min, p.Y.Max-p.Y.Min
 	const w = 460
@@ -312,18 +322,79 @@ func mapSVG(m gridMap) (template.HTML, error) {
 	})
 }
 
-// plainTicks are gonum/plot's default tick positions with labels in the
-// shortest exact form ("7.5", "125", not "7.50", "125.00").
-type plainTicks struct{}
+// niceTicks are gonum/plot's default tick positions with labels written
+// to the precision of the tick spacing, in the shortest form: "0.3" and
+// "0.6", not the binary residue "0.30000000000000004" that the positions
+// carry, nor "7.50" for 7.5. Very large or very small magnitudes use
+// exponent notation with as many significant digits as the spacing
+// needs.
+type niceTicks struct{}
 
-func (plainTicks) Ticks(min, max float64) []plot.Tick {
+var _ plot.Ticker = niceTicks{}
+
+func (niceTicks) Ticks(min, max float64) []plot.Tick {
 	ts := plot.DefaultTicks{}.Ticks(min, max)
+	var major []float64
+	for _, t := range ts {
+		if t.Label != "" {
+			major = append(major, t.Value)
+		}
+	}
+	step := tickStep(major)
+	mag := 0.0
+	for _, v := range major {
+		mag = math.Max(mag, math.Abs(v))
+	}
 	for i := range ts {
 		if ts[i].Label != "" {
-			ts[i].Label = strconv.FormatFloat(ts[i].Value, 'f', -1, 64)
+			ts[i].Label = tickLabel(ts[i].Value, step, mag)
 		}
 	}
 	return ts
+}
+
+// tickStep is the smallest spacing between labelled ticks (the magnitude
+// of the single label, or 1, when there is only one).
+func tickStep(vs []float64) float64 {
+	step := math.Inf(1)
+	for i := 1; i < len(vs); i++ {
+		if d := math.Abs(vs[i] - vs[i-1]); d > 0 {
+			step = math.Min(step, d)
+		}
+	}
+	if math.IsInf(step, 1) {
+		step = 1
+		if len(vs) == 1 && vs[0] != 0 {
+			step = math.Abs(vs[0])
+		}
+	}
+	return step
+}
+
+// tickLabel writes v with the fewest digits that still tell it apart
+// from its neighbours step away: anything closer to v than a millionth of
+// the step is the same tick.
+func tickLabel(v, step, mag float64) string {
+	tol := 1e-6 * step
+	if math.Abs(v) < tol {
+		return "0"
+	}
+	if mag >= 1e6 || mag < 1e-4 {
+		for p := 1; p <= 15; p++ {
+			s := strconv.FormatFloat(v, 'g', p, 64)
+			if x, err := strconv.ParseFloat(s, 64); err == nil && math.Abs(x-v) <= tol {
+				return s
+			}
+		}
+		return strconv.FormatFloat(v, 'g', -1, 64)
+	}
+	for d := 0; d <= 15; d++ {
+		s := strconv.FormatFloat(v, 'f', d, 64)
+		if x, err := strconv.ParseFloat(s, 64); err == nil && math.Abs(x-v) <= tol {
+			return s
+		}
+	}
+	return strconv.FormatFloat(v, 'f', -1, 64)
 }
 
 // clipY cuts a polygon to lo <= y <= hi (Sutherland-Hodgman against two

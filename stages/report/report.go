@@ -216,47 +216,92 @@ func buildLabels(in *Input) (section, error) {
 	s.Intro = "Share of the area-weighted cell-time of each class in the heuristic label masks. " +
 		"Background dominates; the chart shows the event classes."
 	t := table{Title: "Class fractions", Columns: []string{"stage", "scenario", "member", "time steps", "background", "tropical cyclone", "atmospheric river"}}
-	p := newPlot("Event classes in the label masks", "", "percent of cell-time (area-weighted)")
+	stages := map[string]bool{}
+	for _, r := range rows {
+		stages[r.Stage] = true
+	}
 	var names []string
-	var tc, ar plotter.Values
+	var tc, ar []float64
 	for _, r := range rows {
 		t.Rows = append(t.Rows, []string{r.Stage, r.Scenario, r.Member, strconv.Itoa(r.Steps),
 			pct(r.Background), pct(r.TC), pct(r.AR)})
-		name := r.Scenario
-		if r.Member != "" {
-			name += " " + r.Member
+		// The stage is named only when several label stages would
+		// otherwise give two bars the same name.
+		parts := []string{r.Scenario}
+		if len(stages) > 1 {
+			parts = append([]string{r.Stage}, parts...)
 		}
-		names = append(names, name)
+		if r.Member != "" {
+			parts = append(parts, r.Member)
+		}
+		names = append(names, strings.Join(parts, " · "))
 		tc = append(tc, 100*r.TC)
 		ar = append(ar, 100*r.AR)
 	}
 	s.Tables = append(s.Tables, t)
-	w := vg.Length(14)
-	b1, err := plotter.NewBarChart(tc, w)
+	svg, err := fractionChart(names, tc, ar)
 	if err != nil {
 		return s, err
 	}
-	b2, err := plotter.NewBarChart(ar, w)
+	s.Figures = append(s.Figures, figure{Caption: "Tropical-cyclone and atmospheric-river share per label output, in the order of the table below.", SVG: svg})
+	return s, nil
+}
+
+// fractionChart draws the class fractions as horizontal bars, one pair
+// per row of the table and in its order from the top, so that names as
+// long as "river-sweep · control · ar_ivt_min=200" stay legible however
+// many rows there are: the chart grows downwards instead of crowding the
+// names under each other.
+func fractionChart(names []string, tc, ar []float64) (template.HTML, error) {
+	const (
+		bar   = vg.Length(7)  // thickness of one bar
+		pitch = 2*bar + 8     // one row: two bars and a gap
+		frame = vg.Length(66) // title, value axis and margins
+		// legendRows is the room kept above the first row for the
+		// legend (two entries), in rows.
+		legendRows = 1.4
+	)
+	n := len(names)
+	p, g := newPlotGrid("Event classes in the label masks", "percent of cell-time (area-weighted)", "")
+	g.Horizontal.Color = nil // category lines would run between each pair of bars
+	// NominalY puts the first name at the bottom; the table reads from
+	// the top, so the chart is built upside down.
+	rev := func(v []float64) plotter.Values {
+		out := make(plotter.Values, n)
+		for i := range v {
+			out[n-1-i] = v[i]
+		}
+		return out
+	}
+	labels := make([]string, n)
+	for i, nm := range names {
+		labels[n-1-i] = nm
+	}
+	b1, err := plotter.NewBarChart(rev(tc), bar)
 	if err != nil {
-		return s, err
+		return "", err
+	}
+	b2, err := plotter.NewBarChart(rev(ar), bar)
+	if err != nil {
+		return "", err
 	}
 	b1.Color, b2.Color = rgb(0xc2, 0x5b, 0x2e), rgb(0x2a, 0x7f, 0x9e)
 	b1.LineStyle.Width, b2.LineStyle.Width = 0, 0
-	b1.Offset, b2.Offset = -w/2, w/2
+	b1.Horizontal, b2.Horizontal = true, true
+	b1.Offset, b2.Offset = bar/2, -bar/2 // cyclones above rivers, as in the legend
 	p.Add(b1, b2)
 	p.Legend.Add("tropical cyclone", b1)
 	p.Legend.Add("atmospheric river", b2)
 	p.Legend.Left = false
-	p.NominalX(names...)
-	p.X.Min, p.X.Max = -0.6, float64(len(names))-0.4
-	p.Y.Min = 0
-	p.Y.Max = headroom([]plotter.Values{tc, ar})
-	svg, err := plotSVG(p, 460, 260, "class fractions")
-	if err != nil {
-		return s, err
+	p.NominalY(labels...)
+	p.Y.Min, p.Y.Max = -0.5, float64(n)-0.5+legendRows
+	p.X.Min = 0
+	p.X.Max = 1.05 * math.Max(maxOf(tc), maxOf(ar))
+	if p.X.Max == 0 {
+		p.X.Max = 1
 	}
-	s.Figures = append(s.Figures, figure{Caption: "Tropical-cyclone and atmospheric-river share per scenario.", SVG: svg})
-	return s, nil
+	h := frame + pitch*vg.Length(float64(n)+legendRows)
+	return plotSVG(p, 460, h, "class fractions")
 }
 
 func pct(f float64) string { return fmtNum(100*f, 3) + " %" }
@@ -372,7 +417,8 @@ func buildEvents(in *Input) (section, error) {
 	}
 	s.Tables = append(s.Tables, t)
 	add := func(title, caption string, bins []string, vals []plotter.Values) error {
-		p := newPlot(title, "", "events per year")
+		p, g := newPlotGrid(title, "", "events per year")
+		g.Vertical.Color = nil // category lines would run between the bars of a group
 		n := len(d.scenarios)
 		w := vg.Length(math.Min(16, 60/float64(n)))
 		for si, scn := range d.scenarios {
@@ -852,12 +898,19 @@ func signed(n trends.Num) string {
 func headroom(vals []plotter.Values) float64 {
 	m := 0.0
 	for _, v := range vals {
-		for _, x := range v {
-			m = math.Max(m, x)
-		}
+		m = math.Max(m, maxOf(v))
 	}
 	if m == 0 {
 		return 1
 	}
 	return 1.3 * m
+}
+
+// maxOf is the largest of v, or 0.
+func maxOf(v []float64) float64 {
+	m := 0.0
+	for _, x := range v {
+		m = math.Max(m, x)
+	}
+	return m
 }
