@@ -146,7 +146,9 @@ func ObjectDirIn(storeDir string, key Digest) string {
 }
 
 // ReceiptPathIn is where the receipt of key's outputs lives.
-func ReceiptPathIn(storeDir string, key Digest) string { return ObjectDirIn(storeDir, key) + ".receipt.json" }
+func ReceiptPathIn(storeDir string, key Digest) string {
+	return ObjectDirIn(storeDir, key) + ".receipt.json"
+}
 
 // LogPath is where the error output of an instance attempt is kept.
 func (s *Store) LogPath(key Digest) string {

@@ -86,7 +86,11 @@ func BenchmarkPlan100k(b *testing.B) {
 // child processes), then measures a rerun with nothing changed: load,
 // plan and execute, all reused. Target: under 1 s.
 func BenchmarkNoChangeRerun10k(b *testing.B) {
-	f := bigCampaign(b, 100, 100, 1)
+	n := 100
+	if s := os.Getenv("SQUALL_BENCH_SCENARIOS"); s != "" {
+		n, _ = strconv.Atoi(s)
+	}
+	f := bigCampaign(b, n, 100, 1)
 	run := func() *pipeline.RunRecord {
 		c, err := pipeline.Load(f, testRegistry())
 		if err != nil {
@@ -112,7 +116,7 @@ func BenchmarkNoChangeRerun10k(b *testing.B) {
 	for i := 0; i < b.N; i++ {
 		t0 := time.Now()
 		rec := run()
-		if rec.Counts[pipeline.StateReused] != 10001 {
+		if rec.Counts[pipeline.StateReused] != n*100+1 {
 			b.Fatalf("rerun counts %v", rec.Counts)
 		}
 		b.ReportMetric(time.Since(t0).Seconds(), "s/rerun")

@@ -111,24 +111,33 @@ func Execute(ctx context.Context, p *Plan, s *cache.Store, opt RunOptions) (*Run
 		}
 	}
 	for len(ready) > 0 || running > 0 {
+		var r result
+		launched := false
 		for !stopping && running < opt.Jobs && len(ready) > 0 {
 			st := ready[0]
 			ready = ready[1:]
+			if st.Action == ActionReuse && st.Record != nil {
+				// Decided at plan time with every input known: no worker,
+				// no event storm, just its dependents released.
+				r, launched = result{st: st, state: StateReused}, true
+				break
+			}
 			running++
 			emit(Event{Type: "start", Step: st})
 			go func() { done <- runStep(ctx, p, s, st, opt) }()
 		}
-		if running == 0 {
-			break // stopping with work left: it stays "not run"
+		if !launched {
+			if running == 0 {
+				break // stopping with work left: it stays "not run"
+			}
+			select {
+			case r = <-done:
+			case <-ctx.Done():
+				stopping = true
+				r = <-done
+			}
+			running--
 		}
-		var r result
-		select {
-		case r = <-done:
-		case <-ctx.Done():
-			stopping = true
-			r = <-done
-		}
-		running--
 		finished++
 		i := r.st.index
 		states[i], results[i] = r.state, r
@@ -252,6 +261,10 @@ func firstLine(s string) string {
 func runStep(ctx context.Context, p *Plan, s *cache.Store, st *Step, opt RunOptions) result {
 	if ctx.Err() != nil {
 		return result{st: st, state: StateNotRun}
+	}
+	if st.Action == ActionReuse && st.Record != nil {
+		// Decided at plan time with every input known: nothing to redo.
+		return result{st: st, state: StateReused}
 	}
 	reason := st.Reason
 	p.decide(st, s)

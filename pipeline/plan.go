@@ -44,6 +44,13 @@ func NewPlan(c *Campaign, s *cache.Store) (*Plan, error) {
 	}
 	p := &Plan{Campaign: c, byInst: map[*Instance]*Step{}}
 	h := s.NewHasher()
+	var paths []string
+	for _, in := range insts {
+		for _, f := range in.Files {
+			paths = append(paths, f.Files...)
+		}
+	}
+	h.Prefetch(paths) // one index transaction for every memo
 	digests := map[string]cache.Digest{}
 	for _, in := range insts {
 		st := &Step{Instance: in}
@@ -90,12 +97,10 @@ func (p *Plan) fileInputs(in *Instance, digests map[string]cache.Digest) []cache
 // decide sets a step's action from what the store knows. It is called at
 // plan time and again at run time once upstream outputs are known.
 func (p *Plan) decide(st *Step, s *cache.Store) {
-	latest, hasLatest, _ := s.Latest(st.ID())
 	for _, u := range st.Upstream {
-		us := p.byInst[u]
-		if us.Record == nil {
+		if p.byInst[u].Record == nil {
 			st.Action, st.Key = ActionRun, cache.Digest{}
-			if !hasLatest {
+			if _, hasLatest, _ := s.Latest(st.ID()); !hasLatest {
 				st.Reason = "never run"
 			} else {
 				st.Reason = "upstream " + u.Label() + " will run"
@@ -113,7 +118,9 @@ func (p *Plan) decide(st *Step, s *cache.Store) {
 		st.Action, st.Record, st.Reason = ActionReuse, rec, ""
 		return
 	}
+	// Only an instance that must run needs its history, to say why.
 	st.Action = ActionRun
+	latest, hasLatest, _ := s.Latest(st.ID())
 	if !hasLatest {
 		st.Reason = "never run"
 		return

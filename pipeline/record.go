@@ -72,7 +72,9 @@ type InstanceRecord struct {
 
 // SaveRunRecord writes runs/<id>.json and runs/last.json in the store.
 func SaveRunRecord(storeDir string, r *RunRecord) error {
-	b, err := json.MarshalIndent(r, "", "  ")
+	// Compact: a record of 100,000 instances is read by machines (and
+	// `squall record` prints it indented).
+	b, err := json.Marshal(r)
 	if err != nil {
 		return err
 	}
@@ -80,10 +82,17 @@ func SaveRunRecord(storeDir string, r *RunRecord) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
-	if err := writeAtomic(filepath.Join(dir, r.ID+".json"), b); err != nil {
+	path := filepath.Join(dir, r.ID+".json")
+	if err := writeAtomic(path, b); err != nil {
 		return err
 	}
-	return writeAtomic(filepath.Join(dir, "last.json"), b)
+	// last.json is a second name for the same file, replaced atomically.
+	tmp := filepath.Join(dir, "last.json.tmp")
+	os.Remove(tmp)
+	if err := os.Link(path, tmp); err != nil {
+		return writeAtomic(filepath.Join(dir, "last.json"), b)
+	}
+	return os.Rename(tmp, filepath.Join(dir, "last.json"))
 }
 
 // LoadRunRecord reads a run record file.
