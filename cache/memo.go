@@ -40,7 +40,7 @@ func (h *Hasher) Prefetch(paths []string) {
 	if h.memo == nil {
 		h.memo = map[string]fileMemo{}
 	}
-	h.s.db.View(func(tx *bolt.Tx) error {
+	h.s.view(func(tx *bolt.Tx) error {
 		b := tx.Bucket(bucketFiles)
 		for _, p := range paths {
 			abs, err := filepath.Abs(p)
@@ -83,7 +83,7 @@ func (h *Hasher) File(path string) (Digest, error) {
 		return memo.Digest, nil
 	}
 	found = false
-	h.s.db.View(func(tx *bolt.Tx) error {
+	h.s.view(func(tx *bolt.Tx) error {
 		if v := tx.Bucket(bucketFiles).Get([]byte(abs)); v != nil {
 			found = json.Unmarshal(v, &memo) == nil
 		}
@@ -110,7 +110,7 @@ func (h *Hasher) Flush() error {
 	if len(h.pending) == 0 || h.s.db.IsReadOnly() {
 		return nil
 	}
-	err := h.s.db.Update(func(tx *bolt.Tx) error {
+	err := h.s.update(func(tx *bolt.Tx) error {
 		b := tx.Bucket(bucketFiles)
 		for p, m := range h.pending {
 			v, _ := json.Marshal(m)

@@ -161,7 +161,7 @@ func (s *Store) put(rec *Record) error {
 	if err != nil {
 		return err
 	}
-	return s.db.Update(func(tx *bolt.Tx) error {
+	return s.update(func(tx *bolt.Tx) error {
 		if !rec.Failed {
 			if err := tx.Bucket(bucketInstances).Put([]byte(rec.Key.String()), v); err != nil {
 				return err
@@ -189,7 +189,7 @@ func (s *Store) Latest(instance string) (*Record, bool, error) {
 
 func (s *Store) get(bucket []byte, k string) (*Record, bool, error) {
 	var rec *Record
-	err := s.db.View(func(tx *bolt.Tx) error {
+	err := s.view(func(tx *bolt.Tx) error {
 		v := tx.Bucket(bucket).Get([]byte(k))
 		if v == nil {
 			return nil
@@ -203,7 +203,7 @@ func (s *Store) get(bucket []byte, k string) (*Record, bool, error) {
 // Records lists every successful record in the index.
 func (s *Store) Records() ([]*Record, error) {
 	var out []*Record
-	err := s.db.View(func(tx *bolt.Tx) error {
+	err := s.view(func(tx *bolt.Tx) error {
 		return tx.Bucket(bucketInstances).ForEach(func(_, v []byte) error {
 			r := new(Record)
 			if err := json.Unmarshal(v, r); err != nil {
@@ -264,7 +264,7 @@ func CheckOutputsIn(storeDir string, rec *Record, deep bool) *Problem {
 
 // Forget drops a key from the index (its outputs were found altered).
 func (s *Store) Forget(key Digest) error {
-	return s.db.Update(func(tx *bolt.Tx) error {
+	return s.update(func(tx *bolt.Tx) error {
 		return tx.Bucket(bucketInstances).Delete([]byte(key.String()))
 	})
 }

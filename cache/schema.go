@@ -19,7 +19,7 @@ var (
 )
 
 func (s *Store) init() error {
-	return s.db.Update(func(tx *bolt.Tx) error {
+	return s.update(func(tx *bolt.Tx) error {
 		for _, b := range [][]byte{bucketMeta, bucketFiles, bucketInstances, bucketLatest} {
 			if _, err := tx.CreateBucketIfNotExists(b); err != nil {
 				return err

@@ -214,3 +214,22 @@ func (s *Store) RelPath(p string) string {
 	}
 	return p
 }
+
+// view and update run index transactions. bbolt panics on some damaged
+// pages instead of returning an error; a damaged index must reach the
+// user as a sentence and exit code 5, not a stack trace.
+func (s *Store) view(fn func(*bolt.Tx) error) (err error) {
+	defer s.recoverCorrupt(&err)
+	return s.db.View(fn)
+}
+
+func (s *Store) update(fn func(*bolt.Tx) error) (err error) {
+	defer s.recoverCorrupt(&err)
+	return s.db.Update(fn)
+}
+
+func (s *Store) recoverCorrupt(err *error) {
+	if r := recover(); r != nil {
+		*err = &CorruptError{Path: filepath.Join(s.dir, "index.db"), Err: fmt.Errorf("%v", r)}
+	}
+}

@@ -10,6 +10,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
+	"sync"
 	"syscall"
 	"time"
 
@@ -267,7 +268,9 @@ func runStep(ctx context.Context, p *Plan, s *cache.Store, st *Step, opt RunOpti
 		return result{st: st, state: StateReused}
 	}
 	reason := st.Reason
-	p.decide(st, s)
+	if err := p.decide(st, s); err != nil {
+		return result{st: st, state: StateFailed, err: err}
+	}
 	if st.Action == ActionReuse {
 		return result{st: st, state: StateReused}
 	}
@@ -340,7 +343,10 @@ func runChild(ctx context.Context, p *Plan, s *cache.Store, st *Step, opt RunOpt
 		return nil, "", "", err
 	}
 	cmd := opt.ChildCommand(jobFile)
-	cmd.Stdout, cmd.Stderr = logf, logf
+	// The output also stays in memory: on a full disk the log file cannot
+	// be written, and the reason for the failure must still reach the user.
+	ilog := &instanceLog{file: logf}
+	cmd.Stdout, cmd.Stderr = ilog, ilog
 	// Own process group: an interrupt reaches the whole instance, and the
 	// kernel kills the child if the runner dies (kill -9 included).
 	cmd.SysProcAttr = &syscall.SysProcAttr{Setpgid: true, Pdeathsig: syscall.SIGKILL}
@@ -370,7 +376,7 @@ func runChild(ctx context.Context, p *Plan, s *cache.Store, st *Step, opt RunOpt
 		keep = filepath.Join(s.Dir(), "logs", st.Stage.Name+".log")
 	}
 	_ = copyFile(logPath, keep)
-	tail := tailOf(logPath, 20)
+	tail := ilog.tail(20)
 	if err != nil {
 		var ee *exec.ExitError
 		if errors.As(err, &ee) {
@@ -382,6 +388,8 @@ func runChild(ctx context.Context, p *Plan, s *cache.Store, st *Step, opt RunOpt
 		}
 		if msg := lastError(tail); msg != "" {
 			err = fmt.Errorf("%w: %s", err, msg)
+		} else if crash := ilog.crash(); crash != "" {
+			err = fmt.Errorf("%w: %s", err, crash)
 		}
 		return nil, tail, keep, err
 	}
@@ -428,6 +436,75 @@ func lastError(tail string) string {
 	for i := len(lines) - 1; i >= 0; i-- {
 		if strings.HasPrefix(lines[i], "error: ") {
 			return strings.TrimPrefix(lines[i], "error: ")
+		}
+	}
+	return ""
+}
+
+// instanceLog keeps a child's output: in the log file when it can be
+// written, and its first and last lines in memory in any case.
+type instanceLog struct {
+	mu        sync.Mutex
+	file      *os.File
+	fileBroke bool
+	head      []byte // the first 8 KB: Go crash headers stand there
+	last      []byte // the last 32 KB
+}
+
+const (
+	logHeadMax = 8 << 10
+	logTailMax = 32 << 10
+)
+
+func (l *instanceLog) Write(b []byte) (int, error) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	if !l.fileBroke {
+		if _, err := l.file.Write(b); err != nil {
+			l.fileBroke = true // keep going in memory
+		}
+	}
+	if room := logHeadMax - len(l.head); room > 0 {
+		l.head = append(l.head, b[:min(room, len(b))]...)
+	}
+	l.last = append(l.last, b...)
+	if len(l.last) > logTailMax {
+		l.last = append([]byte(nil), l.last[len(l.last)-logTailMax:]...)
+	}
+	return len(b), nil
+}
+
+func (l *instanceLog) tail(lines int) string {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	b := bytes.TrimRight(l.last, "\n")
+	parts := bytes.Split(b, []byte("\n"))
+	if len(parts) > lines {
+		parts = parts[len(parts)-lines:]
+	}
+	return string(bytes.Join(parts, []byte("\n")))
+}
+
+// crash describes a child that died without saying why in an "error:"
+// line: a Go runtime crash header (for example a SIGSEGV inside the netCDF
+// C library) and the last thing the stage logged before it.
+func (l *instanceLog) crash() string {
+	l.mu.Lock()
+	texts := []string{string(l.head), string(l.last)}
+	l.mu.Unlock()
+	for _, text := range texts {
+		lines := strings.Split(text, "\n")
+		for i, line := range lines {
+			if !strings.HasPrefix(line, "fatal error:") && !strings.HasPrefix(line, "SIG") && !strings.HasPrefix(line, "panic:") {
+				continue
+			}
+			header := strings.TrimSpace(line)
+			for j := i - 1; j >= 0; j-- {
+				if t := strings.TrimSpace(lines[j]); t != "" {
+					return fmt.Sprintf("crashed (%s) after: %s", header, t)
+				}
+			}
+			return "crashed (" + header + ")"
 		}
 	}
 	return ""

@@ -31,8 +31,8 @@ func readGeoJSONRegions(path string) ([]Region, error) {
 	var out []Region
 	for i, f := range fc.Features {
 		name, _ := f.Properties["name"].(string)
-		if name == "" || !nameRE.MatchString(name) {
-			return nil, fmt.Errorf("%s: feature %d needs a \"name\" property of a-z, 0-9, _ and - (got %q)", path, i, name)
+		if name == "" || !nameRE.MatchString(name) || len(name) > 64 {
+			return nil, fmt.Errorf("%s: feature %d needs a \"name\" property of a-z, 0-9, _ and -, at most 64 characters (got %q)", path, i, name)
 		}
 		r := Region{Name: name}
 		switch f.Geometry.Type {

@@ -74,7 +74,9 @@ func NewPlan(c *Campaign, s *cache.Store) (*Plan, error) {
 	}
 	for _, st := range p.Steps {
 		st.inputs = p.fileInputs(st.Instance, digests)
-		p.decide(st, s)
+		if err := p.decide(st, s); err != nil {
+			return nil, err
+		}
 	}
 	return p, nil
 }
@@ -96,36 +98,47 @@ func (p *Plan) fileInputs(in *Instance, digests map[string]cache.Digest) []cache
 
 // decide sets a step's action from what the store knows. It is called at
 // plan time and again at run time once upstream outputs are known.
-func (p *Plan) decide(st *Step, s *cache.Store) {
+func (p *Plan) decide(st *Step, s *cache.Store) error {
 	for _, u := range st.Upstream {
 		if p.byInst[u].Record == nil {
 			st.Action, st.Key = ActionRun, cache.Digest{}
-			if _, hasLatest, _ := s.Latest(st.ID()); !hasLatest {
+			_, hasLatest, err := s.Latest(st.ID())
+			if err != nil {
+				return err
+			}
+			if !hasLatest {
 				st.Reason = "never run"
 			} else {
 				st.Reason = "upstream " + u.Label() + " will run"
 			}
-			return
+			return nil
 		}
 	}
 	st.Key = p.key(st)
-	rec, ok, _ := s.Lookup(st.Key)
+	rec, ok, err := s.Lookup(st.Key)
+	if err != nil {
+		return err
+	}
 	if ok {
 		if prob := s.CheckOutputs(rec, false); prob != nil {
 			st.Action, st.Reason = ActionRun, "output "+prob.String()
-			return
+			return nil
 		}
 		st.Action, st.Record, st.Reason = ActionReuse, rec, ""
-		return
+		return nil
 	}
 	// Only an instance that must run needs its history, to say why.
 	st.Action = ActionRun
-	latest, hasLatest, _ := s.Latest(st.ID())
+	latest, hasLatest, err := s.Latest(st.ID())
+	if err != nil {
+		return err
+	}
 	if !hasLatest {
 		st.Reason = "never run"
-		return
+		return nil
 	}
 	st.Reason = p.why(st, latest)
+	return nil
 }
 
 // inputDigests lists every input of a step with its digest, upstream

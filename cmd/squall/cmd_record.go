@@ -7,6 +7,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"github.com/squall-climate/squall/pipeline"
+	"github.com/squall-climate/squall/stages/ncio"
 )
 
 func newRecordCmd(e *env) *cobra.Command {
@@ -64,6 +65,7 @@ func newExecInstanceCmd(e *env) *cobra.Command {
 		Hidden: true,
 		Args:   argsExactly(1, "one job file"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			logOpens(e)
 			err := pipeline.RunChild(cmd.Context(), args[0], e.registry, e.stderr)
 			if err != nil {
 				// The runner shows this line as the instance's error.
@@ -81,6 +83,7 @@ func newExecJobCmd(e *env) *cobra.Command {
 		Hidden: true,
 		Args:   argsExactly(1, "one job file"),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			logOpens(e)
 			err := pipeline.RunClusterJob(cmd.Context(), args[0], e.registry, e.stderr)
 			if err != nil {
 				fmt.Fprintln(e.stderr, "error: "+err.Error())
@@ -88,4 +91,11 @@ func newExecJobCmd(e *env) *cobra.Command {
 			return err
 		},
 	}
+}
+
+// logOpens makes every netCDF file an instance opens leave a line in its
+// log, so that a crash inside the C library (which no Go code survives)
+// is reported with the file that caused it.
+func logOpens(e *env) {
+	ncio.OnOpen = func(path string) { fmt.Fprintln(e.stderr, "reading "+path) }
 }

@@ -25,11 +25,19 @@ type File struct {
 	dimOrd []string
 }
 
+// OnOpen, when set, is called with every path Open is about to open. The
+// instance runner sets it so that a crash inside libnetcdf, which kills
+// the process, is reported with the file being read.
+var OnOpen func(path string)
+
 // Open opens a netCDF file (classic, 64-bit offset, CDF5 or netCDF-4) for
 // reading and loads its metadata. Errors name the file and say plainly
 // what is wrong: missing, not a netCDF file, truncated or damaged.
 func Open(path string) (*File, error) {
 	keepHeap()
+	if OnOpen != nil {
+		OnOpen(path)
+	}
 	st, err := os.Stat(path)
 	switch {
 	case errors.Is(err, os.ErrNotExist):

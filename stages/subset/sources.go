@@ -274,6 +274,9 @@ func (p *planned) resolve(r request, mapping map[string]string, year int) (*sour
 }
 
 func sameLevels(a, b *ncio.Levels) error {
+	if a == nil && b == nil {
+		return nil // single-level variables split in time
+	}
 	if a == nil || b == nil || a.Kind != b.Kind || a.N() != b.N() {
 		return errors.New("other levels")
 	}
