@@ -292,7 +292,7 @@ func Rebuild(dir string) (kept, dropped int, err error) {
 			return 0, 0, err
 		}
 	}
-	s, err := Open(dir, Options{Command: "store rebuild"})
+	s, err := Open(dir, Options{Command: "store rebuild", Rebuilding: true})
 	if err != nil {
 		return 0, 0, err
 	}

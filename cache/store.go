@@ -61,6 +61,8 @@ func (e *CorruptError) Unwrap() error { return e.Err }
 type Options struct {
 	ReadOnly bool
 	Command  string // recorded in owner.json for whoever is refused
+	// Rebuilding opens a store whose index is being recreated.
+	Rebuilding bool
 }
 
 // Open opens (creating if needed) the store in dir and takes its lock.
@@ -71,6 +73,13 @@ func Open(dir string, opt Options) (*Store, error) {
 		}
 	}
 	path := filepath.Join(dir, "index.db")
+	if fi, err := os.Stat(path); (err != nil || fi.Size() == 0) && !opt.Rebuilding {
+		// An index that vanished (or was emptied) beside stored outputs
+		// would silently become a new, empty store and recompute everything.
+		if rs, _ := filepath.Glob(filepath.Join(dir, "objects", "*", "*.receipt.json")); len(rs) > 0 {
+			return nil, &CorruptError{Path: path, Err: fmt.Errorf("the index is missing or empty but %d stored outputs have receipts", len(rs))}
+		}
+	}
 	db, err := openIndex(path, opt.ReadOnly)
 	if err != nil {
 		if errors.Is(err, bolt.ErrTimeout) {
@@ -91,6 +100,7 @@ func Open(dir string, opt Options) (*Store, error) {
 			db.Close()
 			return nil, err
 		}
+		s.sweepTmp()
 	}
 	return s, nil
 }
@@ -231,5 +241,18 @@ func (s *Store) update(fn func(*bolt.Tx) error) (err error) {
 func (s *Store) recoverCorrupt(err *error) {
 	if r := recover(); r != nil {
 		*err = &CorruptError{Path: filepath.Join(s.dir, "index.db"), Err: fmt.Errorf("%v", r)}
+	}
+}
+
+// sweepTmp removes work directories left by runs that died (kill -9, a
+// power cut): nobody else can be using them, since this process holds the
+// store. Cluster jobs' directories (job-*) are left alone: a job of a
+// coordinator that died may still be running on the cluster.
+func (s *Store) sweepTmp() {
+	ents, _ := os.ReadDir(filepath.Join(s.dir, "tmp"))
+	for _, e := range ents {
+		if !strings.HasPrefix(e.Name(), "job-") {
+			os.RemoveAll(filepath.Join(s.dir, "tmp", e.Name()))
+		}
 	}
 }
