@@ -216,3 +216,37 @@ func TestKindsAndGraph(t *testing.T) {
 		t.Fatalf("graph: %s", out)
 	}
 }
+
+func TestRunJSONLinesAreMachineReadable(t *testing.T) {
+	f := campaignDir(t, 0)
+	code, out, _ := run(t, "run", "--json", "--report", "-", f)
+	if code != exitOK {
+		t.Fatalf("run --json exit %d", code)
+	}
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	var starts, finishes int
+	for _, l := range lines {
+		var m map[string]any
+		if err := json.Unmarshal([]byte(l), &m); err != nil {
+			t.Fatalf("not a JSON line: %q", l)
+		}
+		switch m["type"] {
+		case "start":
+			starts++
+		case "finish":
+			finishes++
+			if m["state"] != "ran" || m["total"].(float64) != 2 {
+				t.Errorf("finish line %v", m)
+			}
+		case "summary":
+			if m["status"] != "ok" {
+				t.Errorf("summary %v", m)
+			}
+		default:
+			t.Errorf("unknown line type in %v", m)
+		}
+	}
+	if starts != 2 || finishes != 2 || !strings.Contains(lines[len(lines)-1], `"type":"summary"`) {
+		t.Fatalf("%d starts, %d finishes, last line %s", starts, finishes, lines[len(lines)-1])
+	}
+}
