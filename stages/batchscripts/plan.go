@@ -111,15 +111,23 @@ func (p Plan) Text() string {
 	w("nodes x accelerators    %d x %d = %d ranks", p.Nodes, p.AcceleratorsPerNode, p.Ranks)
 	w("samples per epoch       %d (%.4g MB each)", p.Samples, p.SampleBytes/1e6)
 	w("FLOP per sample step    %.4g TFLOP", p.FLOPPerSample/1e12)
-	w("accelerator peak        %.4g TFLOP/s", p.PeakFLOPS/1e12)
-	w("efficiency              %.3g of peak per accelerator, %.3g scaling", p.Efficiency, p.ScalingEfficiency)
-	w("sustained               %.4g FLOP/s", p.SustainedFLOPS)
-	w("throughput              %.6g samples/s", p.SamplesPerSecond)
-	w("hours per epoch         %.4g", p.HoursPerEpoch)
-	w("epochs                  %g", p.Epochs)
-	w("training hours          %.4g", p.TrainingHours)
-	w("node-hours              %.4g", p.NodeHours)
-	w("segments                %d of up to %.4g h of training each", p.Segments, p.SegmentHours)
+	if p.PeakFLOPS <= 0 {
+		// Without a peak rate every time figure would print as 0 hours,
+		// which reads as "free" rather than "unknown".
+		w("accelerator peak        unknown: the site profile gives no node.accelerator_peak_tflops")
+		w("throughput and hours    cannot be estimated without it")
+		w("epochs                  %g", p.Epochs)
+	} else {
+		w("accelerator peak        %.4g TFLOP/s", p.PeakFLOPS/1e12)
+		w("efficiency              %.3g of peak per accelerator, %.3g scaling", p.Efficiency, p.ScalingEfficiency)
+		w("sustained               %.4g FLOP/s", p.SustainedFLOPS)
+		w("throughput              %.6g samples/s", p.SamplesPerSecond)
+		w("hours per epoch         %.4g", p.HoursPerEpoch)
+		w("epochs                  %g", p.Epochs)
+		w("training hours          %.4g", p.TrainingHours)
+		w("node-hours              %.4g", p.NodeHours)
+		w("segments                %d of up to %.4g h of training each", p.Segments, p.SegmentHours)
+	}
 	w("")
 	w("staging: largest node share %s of %s usable node-local storage (%s total)",
 		bytesText(p.MaxStageBytes), bytesText(p.ScratchUsable), bytesText(p.ScratchBytes))
