@@ -176,18 +176,21 @@ func ExecuteCluster(ctx context.Context, p *Plan, s *cache.Store, cl Cluster, op
 		emit(Event{Type: "start", Step: st})
 	}
 	// Follow the jobs until every one has ended.
-	interrupted := false
+	interrupted, cancelled := false, false
 	for len(pending) > 0 {
-		if submitErr != nil || ctx.Err() != nil {
+		if (submitErr != nil || ctx.Err() != nil) && !cancelled {
+			// A submission failed or the user interrupted: stop every job
+			// already submitted, once.
 			ids := make([]string, 0, len(pending))
 			for id := range pending {
 				ids = append(ids, id)
 			}
 			_ = cl.Cancel(context.Background(), ids)
-			interrupted = ctx.Err() != nil
-			if interrupted {
-				break
-			}
+			cancelled = true
+		}
+		if ctx.Err() != nil {
+			interrupted = true
+			break
 		}
 		select {
 		case <-time.After(opt.Poll):
