@@ -8,24 +8,13 @@ import (
 	"github.com/squall-climate/squall/stages/report"
 )
 
-// writeReport writes the HTML report of a run; path "" means the store's
-// report.html. It returns the path written.
+// writeReport writes the HTML report of a run; path "" means report.html
+// beside the campaign file. It returns the path written.
 func writeReport(e *env, rec *pipeline.RunRecord, path string) (string, error) {
 	if path == "" {
-		path = filepath.Join(filepath.Dir(filepath.Dir(storeOfRecord(rec))), "report.html")
+		path = filepath.Join(filepath.Dir(rec.CampaignFile), "report.html")
 	}
 	return path, report.Write(path, reportInput(rec))
-}
-
-// storeOfRecord finds the store directory from an instance's output dir
-// (<store>/objects/ab/<key>); the campaign's default store otherwise.
-func storeOfRecord(rec *pipeline.RunRecord) string {
-	for _, in := range rec.Instances {
-		if in.OutputDir != "" {
-			return filepath.Dir(filepath.Dir(in.OutputDir))
-		}
-	}
-	return filepath.Join(filepath.Dir(rec.CampaignFile), ".squall", "objects")
 }
 
 // reportInput maps a run record onto the report's own input type.

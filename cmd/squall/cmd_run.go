@@ -51,7 +51,7 @@ func newRunCmd(e *env) *cobra.Command {
 	cmd.Flags().BoolVar(&failFast, "fail-fast", false, "stop starting new instances after the first failure (default: independent instances continue)")
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print progress and the summary as JSON lines")
 	cmd.Flags().StringVar(&site, "site", "", "run every instance as a job of the batch system in this site profile (YAML) instead of on this machine")
-	cmd.Flags().StringVar(&reportPath, "report", "", "where to write the HTML report (default <store>/report.html; - for none)")
+	cmd.Flags().StringVar(&reportPath, "report", "", "where to write the HTML report (default report.html beside the campaign file; - for none)")
 	return cmd
 }
 
