@@ -281,7 +281,7 @@ func trendOf(s *Series, cfg config) Trend {
 		t.Status = fmt.Sprintf("%s (%d, need %d)", StatusTooFew, len(xs), cfg.minYears)
 		return t
 	}
-	mk, err := MannKendallTest(xs, cfg.correction, cfg.alpha)
+	mk, err := MannKendallExactUpTo(xs, cfg.correction, cfg.alpha, cfg.exactMaxN)
 	if err != nil {
 		t.Status = statusFailedAt + err.Error()
 		return t
@@ -297,6 +297,7 @@ func trendOf(s *Series, cfg config) Trend {
 		return t
 	}
 	t.Status = StatusOK
+	t.PMethod = mk.PMethod
 	t.MKS, t.MKVarS, t.MKFactor, t.MKTau, t.MKZ, t.MKP = Num(mk.S), Num(mk.VarSUsed), Num(mk.Factor), Num(mk.Tau), Num(mk.Z), Num(mk.P)
 	t.SenSlope, t.SenLow, t.SenHigh = Num(10*sen.Slope), Num(10*sen.Low), Num(10*sen.High)
 	t.SenIntercept = Num(sen.Intercept)

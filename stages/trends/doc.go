@@ -56,7 +56,19 @@
 // (n, need m)" and empty statistics): Mann-Kendall S with the tie-corrected
 // variance (Gilbert 1987, ch. 16), continuity-corrected Z and two-sided p;
 // optionally the Hamed & Rao (1998) variance correction for serial
-// correlation (serial_correction: hamed-rao-1998); Sen's (1968) slope with
+// correlation (serial_correction: hamed-rao-1998). The p-value is exact
+// for short series: with n <= mk_exact_max_n (default 10) values, no two
+// tied and no serial correction, p = P(|S| >= |s|) under the exact null
+// distribution of S (S = n(n-1)/2 - 2Q, Q the inversions of a random
+// ordering, counted by the Mahonian numbers in integers); otherwise the
+// normal approximation above (p_method says which). The cut-off 10 follows
+// Gilbert's exact table (n <= 10; from memory), below which the normal
+// approximation is rough (n = 6, S = 15: exact 0.0028, normal 0.0085);
+// counts stay exact in float64 up to n = 18 (18! < 2^53), the setting's
+// maximum. Ties keep the normal approximation because the tie-corrected
+// exact distribution depends on the tie pattern. The USEPA examples
+// (n = 10) use the normal approximation: set mk_exact_max_n 9 to reproduce
+// them. Sen's (1968) slope with
 // Gilbert's confidence interval (ranks interpolated linearly); ordinary
 // least squares with standard errors and a Student-t p. Slopes are per
 // decade. Between each scenario and the baseline (same member when there
@@ -73,7 +85,9 @@
 //	trends.csv       one row per series: region, class, scenario, member, metric, unit, status,
 //	                 n_years, first_year, last_year, mean, mk_correction, mk_s, mk_var_s
 //	                 (after correction), mk_variance_factor (n/n*), mk_tau (S/(n(n-1)/2)), mk_z,
-//	                 mk_p, sen_slope_per_decade, sen_low_per_decade, sen_high_per_decade,
+//	                 mk_p, p_method ("exact" or "normal": how mk_p was computed, empty
+//	                 without a p-value; mk_z is the normal statistic either way),
+//	                 sen_slope_per_decade, sen_low_per_decade, sen_high_per_decade,
 //	                 sen_intercept (value at year 0: median(x) - slope*median(year), slope per
 //	                 year), ols_slope_per_decade, ols_slope_se_per_decade, ols_intercept (year
 //	                 0), ols_intercept_se, ols_r2, ols_p, confidence
@@ -101,7 +115,9 @@
 // stats_test.go and scipy_test.go: USEPA (2009) Unified Guidance Example
 // 17-7 (S, Var(S), tau, Z, p, Sen slope, intercept and 95 % interval);
 // the Holy Cross "Mann-Kendall by hand" handout with a tie (S, Var(S), Z,
-// one-sided p); NIST StRD Norris for least squares (12+ digits); seeded
+// one-sided p); the exact p against scipy.stats.kendalltau(method="exact")
+// for n = 4..10 (1e-12) and a hand count for n = 4; NIST StRD Norris for
+// least squares (12+ digits); seeded
 // random series against Debian's scipy.stats (kendalltau, theilslopes,
 // linregress, mannwhitneyu exact and asymptotic); the Hamed-Rao factor
 // against the formula written out independently in Python (derived).

@@ -21,7 +21,7 @@ var (
 
 // version changes whenever the same inputs and settings would give
 // different outputs.
-const version = 1
+const version = 2 // 2: exact Mann-Kendall p for short untied series, p_method column
 
 func (Kind) Name() string      { return "trends" }
 func (Kind) Version() int      { return version }
@@ -33,7 +33,7 @@ func (Kind) CampaignSections() []string {
 func (Kind) Doc() string {
 	return "Annual series per region, class and scenario (event counts, event-days, landfalls, mean and " +
 		"maximum intensity) from the catalogs of every scenario; Mann-Kendall trend tests (tie-corrected, " +
-		"optionally Hamed-Rao corrected for serial correlation), Sen slopes with Gilbert confidence " +
+		"exact p for short untied series, optionally Hamed-Rao corrected for serial correlation), Sen slopes with Gilbert confidence " +
 		"intervals and least-squares slopes, all per decade; scenario differences with seeded bootstrap " +
 		"intervals and rank-sum p-values; event-frequency maps and their differences as CF netCDF. " +
 		"Writes trends.json, trends.csv, series.csv, differences.csv and maps.nc. Research output, not a forecast."
@@ -49,6 +49,7 @@ const (
 	setBaseline    = "baseline_scenario"
 	setWholeRegion = "whole_domain_region"
 	setMapRes      = "map_resolution"
+	setExactMaxN   = "mk_exact_max_n"
 )
 
 func (Kind) Settings() []pipeline.Setting {
@@ -57,6 +58,13 @@ func (Kind) Settings() []pipeline.Setting {
 			Doc: "fewest years with a value for a trend or a scenario difference to be computed; shorter series " +
 				"say \"too few years\" instead of a p-value. The normal approximation of the Mann-Kendall S is " +
 				"usually recommended from about n = 10 (Gilbert 1987, ch. 16; from memory)"},
+		{Name: setExactMaxN, Type: pipeline.TypeInt, Default: DefaultExactMaxN, Min: pipeline.Bound(0), Max: pipeline.Bound(MaxExactN),
+			Doc: "longest series (years with a value) whose Mann-Kendall p-value comes from the exact null " +
+				"distribution of S (permutation counts) instead of the normal approximation, when no two values " +
+				"are tied and serial_correction is none; 0 for the normal approximation always. Default 10: " +
+				"Gilbert (1987) tabulates exact probabilities up to n = 10 (from memory); at most 18, where the " +
+				"counts stop being exact in double precision. The USEPA Unified Guidance examples use the " +
+				"normal approximation at n = 10; set 9 to reproduce them"},
 		{Name: setConfidence, Type: pipeline.TypeFloat, Default: 0.95, Min: pipeline.Bound(0.5), Max: pipeline.Bound(0.999),
 			Doc: "confidence level of the Sen-slope and bootstrap intervals; the Hamed-Rao lags are judged at 1 - confidence"},
 		{Name: setCorrection, Type: pipeline.TypeString, Default: CorrectionNone,
@@ -117,6 +125,7 @@ type config struct {
 	baseline   string
 	whole      string
 	mapRes     float64
+	exactMaxN  int
 }
 
 func readConfig(v pipeline.Values) config {
@@ -129,6 +138,7 @@ func readConfig(v pipeline.Values) config {
 		baseline:   v.String(setBaseline),
 		whole:      v.String(setWholeRegion),
 		mapRes:     v.Float(setMapRes),
+		exactMaxN:  v.Int(setExactMaxN),
 	}
 }
 

@@ -221,6 +221,10 @@ func TestRunPlantedTrend(t *testing.T) {
 	if fut.Status != StatusOK || float64(fut.SenSlope) != 10 || math.Abs(float64(fut.OLSSlope)-10) > 1e-9 || !(float64(fut.MKP) < 0.001) {
 		t.Errorf("future trend: %+v", fut)
 	}
+	// 12 years is past the exact cut-off (10 by default): normal method.
+	if fut.PMethod != PMethodNormal {
+		t.Errorf("future trend p_method %q, want normal (n = 12 > 10)", fut.PMethod)
+	}
 	ctl := findTrend(t, o, "dateline_box", ClassTC, "control", MetricEvents)
 	if ctl.Status != StatusOK || !(float64(ctl.MKP) > 0.5) || float64(ctl.SenSlope) != 0 {
 		t.Errorf("control trend: %+v", ctl)
@@ -229,6 +233,12 @@ func TestRunPlantedTrend(t *testing.T) {
 	sh := findTrend(t, o, "domain", ClassTC, "short", MetricEvents)
 	if !strings.HasPrefix(sh.Status, StatusTooFew) || !math.IsNaN(float64(sh.MKP)) {
 		t.Errorf("short series: status %q p %v", sh.Status, sh.MKP)
+	}
+	if sh.PMethod != "" {
+		t.Errorf("short series: p_method %q, want empty (no p-value)", sh.PMethod)
+	}
+	if b, err := os.ReadFile(filepath.Join(c.job.OutDir, CSVFile)); err != nil || !strings.Contains(string(b), ",mk_p,p_method,") {
+		t.Errorf("trends.csv lacks the documented p_method column after mk_p (err %v)", err)
 	}
 	// Scenario difference: future minus control in the date-line box.
 	var d *Difference

@@ -43,22 +43,65 @@ type MannKendall struct {
 	// Z is the continuity-corrected statistic: (S-1)/sd if S>0, 0 if S=0,
 	// (S+1)/sd if S<0.
 	Z float64
-	// P is the two-sided p-value erfc(|Z|/sqrt 2).
-	P          float64
+	// P is the two-sided p-value: erfc(|Z|/sqrt 2) when PMethod is
+	// PMethodNormal, P(|S| >= |s|) under the exact permutation
+	// distribution of S when it is PMethodExact.
+	P float64
+	// PMethod says which of the two produced P.
+	PMethod    string
 	Correction string
 }
+
+// Methods of the Mann-Kendall p-value (MannKendall.PMethod, column
+// p_method of trends.csv).
+const (
+	PMethodExact  = "exact"
+	PMethodNormal = "normal"
+)
+
+// MaxExactN is the largest series length for which the exact distribution
+// of S can be used: the permutation counts (Mahonian numbers) and their
+// partial sums are at most n!, and 18! = 6402373705728000 is below
+// 2^53 = 9007199254740992 (19! is not), so each count is an exact integer
+// in uint64 and in float64 and the p-value count/n! is a correctly rounded
+// quotient of two exact integers.
+const MaxExactN = 18
+
+// DefaultExactMaxN is the default cut-off of the exact p-value (setting
+// mk_exact_max_n): the exact distribution is used for n <= 10 untied
+// values. Gilbert (1987, ch. 16 and table A18; from memory) tabulates the
+// exact probabilities up to n = 10 and uses the normal approximation with
+// continuity correction beyond; the approximation is rough below that
+// (for n = 6 the smallest attainable two-sided p is 2/720 = 0.0028, the
+// approximation gives about 0.0085 for S = 15, derived).
+const DefaultExactMaxN = 10
 
 // ErrTooShort is returned when a series is too short for a statistic.
 var ErrTooShort = errors.New("series too short")
 
 // MannKendallTest runs the Mann-Kendall test on x (in time order, equally
-// spaced or not: only the order matters). correction is CorrectionNone or
-// CorrectionHamedRao; alpha is the level at which the Hamed-Rao lags are
-// judged significant (0.05 in the paper). Cost O(n^2) for S, O(n^2) for the
-// correction.
+// spaced or not: only the order matters) with the normal approximation of
+// S for every n, as the USEPA Unified Guidance and Gilbert (1987) do for
+// n >= 10. correction is CorrectionNone or CorrectionHamedRao; alpha is the
+// level at which the Hamed-Rao lags are judged significant (0.05 in the
+// paper). Cost O(n^2) for S, O(n^2) for the correction.
 func MannKendallTest(x []float64, correction string, alpha float64) (MannKendall, error) {
+	return MannKendallExactUpTo(x, correction, alpha, 0)
+}
+
+// MannKendallExactUpTo is MannKendallTest with the exact p-value for short
+// series: when n <= exactMaxN (at most MaxExactN), no two values are tied
+// and no serial correction is asked for, P is the two-sided
+// P(|S| >= |s|) under the exact null distribution of S (every ordering of
+// the values equally likely; see ExactKendallP), and PMethod is
+// PMethodExact. Otherwise (ties, longer series, exactMaxN <= 0, or the
+// Hamed-Rao correction, whose inflated variance has no permutation
+// counterpart) P comes from the normal approximation with the tie-corrected
+// variance and continuity correction, as in MannKendallTest. S, VarS, Tau
+// and Z are the same either way; Z stays the normal statistic.
+func MannKendallExactUpTo(x []float64, correction string, alpha float64, exactMaxN int) (MannKendall, error) {
 	n := len(x)
-	r := MannKendall{N: n, Correction: correction, Factor: 1}
+	r := MannKendall{N: n, Correction: correction, Factor: 1, PMethod: PMethodNormal}
 	if n < 3 {
 		return r, ErrTooShort
 	}
@@ -107,7 +150,60 @@ func MannKendallTest(x []float64, correction string, alpha float64) (MannKendall
 	if r.VarSUsed > 0 {
 		r.P = math.Erfc(math.Abs(r.Z) / math.Sqrt2)
 	}
+	if n <= exactMaxN && n <= MaxExactN && len(ties) == 0 && r.Correction == CorrectionNone {
+		r.P = ExactKendallP(n, int(r.S))
+		r.PMethod = PMethodExact
+	}
 	return r, nil
+}
+
+// mahonian returns M(n, k), k = 0..n(n-1)/2: the number of permutations of
+// n items with k inversions, by the recurrence M(m, k) = sum_{j=0}^{min(k,
+// m-1)} M(m-1, k-j) (the m-th item put in one of m places adds j
+// inversions). Exact in uint64 for n <= 20 (sum = n!).
+func mahonian(n int) []uint64 {
+	row := []uint64{1} // M(1, 0) = 1 (and M(0, 0))
+	for m := 2; m <= n; m++ {
+		next := make([]uint64, len(row)+m-1)
+		for k := range next {
+			for j := 0; j < m && j <= k; j++ {
+				if k-j < len(row) {
+					next[k] += row[k-j]
+				}
+			}
+		}
+		row = next
+	}
+	return row
+}
+
+// ExactKendallP is the two-sided p-value P(|S| >= |s|) of the
+// Mann-Kendall S for n untied values under no trend (every ordering
+// equally likely). With N = n(n-1)/2 pairs and Q discordant pairs
+// (inversions of the ranks in time order), S = N - 2Q, and Q has the
+// Mahonian distribution M(n, Q)/n!. This is also the exact null
+// distribution of Kendall's tau between the values and the (distinct)
+// times, which scipy.stats.kendalltau(method="exact") uses. n must be in
+// 1..MaxExactN; s must have the parity of N (else NaN).
+func ExactKendallP(n, s int) float64 {
+	if n < 1 || n > MaxExactN {
+		return math.NaN()
+	}
+	pairs := n * (n - 1) / 2
+	if s < 0 {
+		s = -s
+	}
+	if s > pairs || (pairs-s)%2 != 0 {
+		return math.NaN()
+	}
+	var count, total uint64
+	for q, m := range mahonian(n) {
+		total += m
+		if d := pairs - 2*q; d >= s || -d >= s {
+			count += m
+		}
+	}
+	return float64(count) / float64(total)
 }
 
 // kendallS counts concordant minus discordant pairs in time order.

@@ -120,6 +120,7 @@ type Trend struct {
 	MKTau          Num    `json:"mk_tau"`
 	MKZ            Num    `json:"mk_z"`
 	MKP            Num    `json:"mk_p"`
+	PMethod        string `json:"p_method"` // "exact" or "normal"; empty when mk_p is null
 	SenSlope       Num    `json:"sen_slope_per_decade"`
 	SenLow         Num    `json:"sen_low_per_decade"`
 	SenHigh        Num    `json:"sen_high_per_decade"`
@@ -192,14 +193,14 @@ func writeOutputs(dir string, o *Output) error {
 	}
 	// trends.csv
 	rows := [][]string{{"region", "class", "scenario", "member", "metric", "unit", "status", "n_years", "first_year", "last_year",
-		"mean", "mk_correction", "mk_s", "mk_var_s", "mk_variance_factor", "mk_tau", "mk_z", "mk_p",
+		"mean", "mk_correction", "mk_s", "mk_var_s", "mk_variance_factor", "mk_tau", "mk_z", "mk_p", "p_method",
 		"sen_slope_per_decade", "sen_low_per_decade", "sen_high_per_decade", "sen_intercept",
 		"ols_slope_per_decade", "ols_slope_se_per_decade", "ols_intercept", "ols_intercept_se", "ols_r2", "ols_p", "confidence"}}
 	conf := strconv.FormatFloat(o.Confidence, 'g', -1, 64)
 	for _, t := range o.Trends {
 		rows = append(rows, []string{t.Region, t.Class, t.Scenario, t.Member, t.Metric, t.Unit, t.Status,
 			strconv.Itoa(t.NYears), yearCell(t.FirstYear, t.NYears), yearCell(t.LastYear, t.NYears),
-			csvNum(t.Mean), t.Correction, csvNum(t.MKS), csvNum(t.MKVarS), csvNum(t.MKFactor), csvNum(t.MKTau), csvNum(t.MKZ), csvNum(t.MKP),
+			csvNum(t.Mean), t.Correction, csvNum(t.MKS), csvNum(t.MKVarS), csvNum(t.MKFactor), csvNum(t.MKTau), csvNum(t.MKZ), csvNum(t.MKP), t.PMethod,
 			csvNum(t.SenSlope), csvNum(t.SenLow), csvNum(t.SenHigh), csvNum(t.SenIntercept),
 			csvNum(t.OLSSlope), csvNum(t.OLSSlopeSE), csvNum(t.OLSIntercept), csvNum(t.OLSInterceptSE), csvNum(t.OLSR2), csvNum(t.OLSP), conf})
 	}

@@ -262,3 +262,65 @@ func TestHamedRaoAgainstFormulaInPython(t *testing.T) {
 		t.Error("no series had its variance inflated: the check did not exercise the correction")
 	}
 }
+
+// tolExactP: both sides divide exact integer counts (below 2^53) by n!;
+// only the final rounding (and scipy's summation order) can differ.
+const tolExactP = 1e-12
+
+// TestExactMannKendallAgainstScipy compares the exact two-sided p-value of
+// S with scipy.stats.kendalltau(t, x, method="exact") on seeded random
+// untied series for n = 4..10. With distinct times and no ties in x,
+// Kendall's tau between time and value is S/(n(n-1)/2), so the two tests
+// are the same test, and scipy's exact method uses the same permutation
+// (inversion-count) distribution under independence. The sorted and
+// reversed series (S at its extremes) are included for each n, since
+// scipy handles those counts separately.
+func TestExactMannKendallAgainstScipy(t *testing.T) {
+	rng := rand.New(rand.NewPCG(20261202, 7))
+	var xs [][]float64
+	for n := 4; n <= 10; n++ {
+		for rep := 0; rep < 8; rep++ {
+			x := make([]float64, n)
+			for i := range x {
+				x[i] = 0.2*float64(i) + rng.NormFloat64() // continuous: ties have probability 0
+			}
+			xs = append(xs, x)
+		}
+		up := make([]float64, n)
+		down := make([]float64, n)
+		for i := range up {
+			up[i], down[i] = float64(i), float64(-i)
+		}
+		xs = append(xs, up, down)
+	}
+	const script = `
+import json, sys
+import numpy as np
+from scipy import stats
+out = []
+for x in json.load(sys.stdin):
+    t = np.arange(len(x), dtype=float)
+    out.append(stats.kendalltau(t, np.array(x), method="exact").pvalue)
+print(json.dumps(out))
+`
+	var ps []float64
+	runScipy(t, script, xs, &ps)
+	if len(ps) != len(xs) {
+		t.Fatalf("python answered %d cases, want %d", len(ps), len(xs))
+	}
+	for k, x := range xs {
+		if len(tieGroups(x)) != 0 {
+			t.Fatalf("case %d: random series has ties; pick another seed", k)
+		}
+		mk, err := MannKendallExactUpTo(x, CorrectionNone, 0.05, DefaultExactMaxN)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if mk.PMethod != PMethodExact {
+			t.Errorf("case %d (n=%d): method %q, want exact", k, len(x), mk.PMethod)
+		}
+		if math.Abs(mk.P-ps[k]) > tolExactP {
+			t.Errorf("case %d (n=%d, S=%g): exact p %.17g, scipy kendalltau exact %.17g", k, len(x), mk.S, mk.P, ps[k])
+		}
+	}
+}

@@ -87,6 +87,113 @@ func TestSenSlopeEPAExample17_7(t *testing.T) {
 	}
 }
 
+// The published Example 17-7 (n = 10, no ties) reports the normal
+// approximation with continuity correction; the stage's default cut-off
+// (n <= 10) would give the exact p instead, so the published p is checked
+// through MannKendallTest above and, here, with the cut-off below 10.
+func TestMannKendallEPAExampleMethods(t *testing.T) {
+	mk, err := MannKendallExactUpTo(epaValues, CorrectionNone, 0.05, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if mk.PMethod != PMethodNormal || math.Abs(mk.P-0.03182313) > 5e-9 { // published, USEPA 2009 Ex. 17-7
+		t.Errorf("cut-off 9: p %.9g by %s, want 0.03182313 by normal", mk.P, mk.PMethod)
+	}
+	ex, err := MannKendallExactUpTo(epaValues, CorrectionNone, 0.05, DefaultExactMaxN)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// S = 25, Z and Var(S) unchanged by the method (definition); the exact
+	// p differs from the normal one.
+	if ex.PMethod != PMethodExact || ex.S != 25 || ex.Z != mk.Z || ex.P == mk.P {
+		t.Errorf("cut-off 10: method %s S %g Z %g p %.9g", ex.PMethod, ex.S, ex.Z, ex.P)
+	}
+	// Exact p = (number of permutations of 10 with at most 10 inversions,
+	// times 2) / 10!: S = 45 - 2Q >= 25 <=> Q <= 10; cross-checked against
+	// scipy in TestExactMannKendallAgainstScipy (derived).
+	row := mahonian(10)
+	var c uint64
+	for q := 0; q <= 10; q++ {
+		c += row[q]
+	}
+	if want := float64(2*c) / 3628800; ex.P != want {
+		t.Errorf("exact p %.17g, want 2*%d/10! = %.17g", ex.P, c, want)
+	}
+}
+
+// Hand check for n = 4 (derived): N = 6 pairs, S = 6 - 2Q with Q the
+// number of inversions. The Mahonian row for n = 4 is 1 3 5 6 5 3 1 (sum
+// 4! = 24; OEIS A008302, and by the recurrence: rows 1 | 1 1 | 1 2 2 1).
+// S = 6 needs Q = 0 (the sorted series only) and S = -6 needs Q = 6 (the
+// reversed one), so P(|S| >= 6) = 2/24 = 1/12. S = 4 (Q = 1) has
+// P(|S| >= 4) = (1+3+3+1)/24 = 1/3; S = 2 has (1+3+5+5+3+1)/24 = 3/4;
+// S = 0 (Q = 3) has p = 1. S always has the parity of N, so an odd S is
+// impossible for n = 4; for n = 5 (N = 10) S = 0 (Q = 5) also has p = 1.
+func TestExactKendallHandN4(t *testing.T) {
+	row := mahonian(4)
+	want := []uint64{1, 3, 5, 6, 5, 3, 1}
+	if len(row) != len(want) {
+		t.Fatalf("Mahonian row 4 = %v, want %v", row, want)
+	}
+	for i := range want {
+		if row[i] != want[i] {
+			t.Fatalf("Mahonian row 4 = %v, want %v", row, want)
+		}
+	}
+	for _, c := range []struct {
+		n, s int
+		p    float64
+	}{{4, 6, 2.0 / 24}, {4, -6, 2.0 / 24}, {4, 4, 1.0 / 3}, {4, 2, 18.0 / 24}, {4, 0, 1}, {5, 0, 1}} {
+		if got := ExactKendallP(c.n, c.s); got != c.p {
+			t.Errorf("ExactKendallP(%d, %d) = %.17g, want %.17g", c.n, c.s, got, c.p)
+		}
+	}
+	if !math.IsNaN(ExactKendallP(4, 3)) { // S = 3 impossible for n = 4 (parity, derived)
+		t.Errorf("ExactKendallP(4, 3) should be NaN")
+	}
+	// Through the test: the sorted series of 4 has S = 6.
+	mk, err := MannKendallExactUpTo([]float64{1, 2, 3, 4}, CorrectionNone, 0.05, DefaultExactMaxN)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if mk.S != 6 || mk.P != 2.0/24 || mk.PMethod != PMethodExact {
+		t.Errorf("sorted n=4: S %g p %.17g method %s, want 6, 1/12, exact", mk.S, mk.P, mk.PMethod)
+	}
+	// n! for n = 18 is the largest factorial below 2^53 (derived: 18! =
+	// 6402373705728000 < 9007199254740992 < 19!); the row sums to it.
+	var sum uint64
+	for _, m := range mahonian(MaxExactN) {
+		sum += m
+	}
+	if sum != 6402373705728000 || sum >= 1<<53 {
+		t.Errorf("sum of Mahonian row 18 = %d, want 18! = 6402373705728000 < 2^53", sum)
+	}
+}
+
+// Ties, long series, the serial correction and a zero cut-off keep the
+// normal approximation (the rule in MannKendallExactUpTo).
+func TestExactFallsBackToNormal(t *testing.T) {
+	tied := []float64{1, 3, 2, 3, 5, 6}
+	long := []float64{1, 3, 2, 4, 5, 7, 6, 8, 9, 11, 10}
+	alt := []float64{1, 5, 2, 6, 3, 7, 4, 8}
+	for _, c := range []struct {
+		name string
+		x    []float64
+		corr string
+		max  int
+	}{{"ties", tied, CorrectionNone, 10}, {"n=11", long, CorrectionNone, 10},
+		{"hamed-rao", alt, CorrectionHamedRao, 10}, {"cut-off 0", alt, CorrectionNone, 0}} {
+		mk, err := MannKendallExactUpTo(c.x, c.corr, 0.05, c.max)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		normal, _ := MannKendallTest(c.x, c.corr, 0.05)
+		if mk.PMethod != PMethodNormal || mk.P != normal.P {
+			t.Errorf("%s: method %s p %g, want normal p %g", c.name, mk.PMethod, mk.P, normal.P)
+		}
+	}
+}
+
 // College of the Holy Cross handout "Mann-Kendall by hand" (confirmed;
 // reference-values.md): one tied pair (12.9 twice).
 func TestMannKendallHolyCrossTie(t *testing.T) {
