@@ -716,8 +716,8 @@ func sig(p float64) string {
 }
 
 func trendTables(o *trends.Output) (table, table) {
-	cols := []string{"region", "class", "scenario", "metric", "years", "mean", "Sen slope /decade", "interval", "MK p", "OLS slope /decade ± se", "status"}
-	main := table{Title: "Trends of annual events", Note: "◆ marks p < 0.05. Slopes per decade; intervals at the stated confidence.", Columns: cols}
+	cols := []string{"region", "class", "scenario", "metric", "years", "mean", "Sen slope /decade", "interval", "MK p", "p from", "OLS slope /decade ± se", "status"}
+	main := table{Title: "Trends of annual events", Note: "◆ marks p < 0.05. Slopes per decade; intervals at the stated confidence. \"p from\": the exact Mann-Kendall distribution (short series without ties) or its normal approximation.", Columns: cols}
 	all := table{Title: "All trend rows (every metric)", Columns: cols}
 	for _, t := range o.Trends {
 		scn := t.Scenario
@@ -726,9 +726,9 @@ func trendTables(o *trends.Output) (table, table) {
 		}
 		row := []string{t.Region, strings.ReplaceAll(t.Class, "_", " "), scn, strings.ReplaceAll(t.Metric, "_", " ") + " (" + t.Unit + ")",
 			strconv.Itoa(t.NYears), g3(t.Mean), g3(t.SenSlope), "[" + g3(t.SenLow) + ", " + g3(t.SenHigh) + "]",
-			pText(float64(t.MKP)) + sig(float64(t.MKP)), g3(t.OLSSlope) + " ± " + g3(t.OLSSlopeSE), t.Status}
+			pText(float64(t.MKP)) + sig(float64(t.MKP)), t.PMethod, g3(t.OLSSlope) + " ± " + g3(t.OLSSlopeSE), t.Status}
 		if t.Status != trends.StatusOK {
-			row[6], row[7], row[9] = "–", "–", "–"
+			row[6], row[7], row[9], row[10] = "–", "–", "–", "–"
 		}
 		if t.Metric == preferredMetric {
 			main.Rows = append(main.Rows, row)

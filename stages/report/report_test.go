@@ -238,7 +238,7 @@ func TestWriteFullReport(t *testing.T) {
 	// Every section is present with content, none says it is missing.
 	for _, want := range []string{Caution, "coastal-demo", "Stage graph", "Class fractions", "Pixel scores", "Event scores",
 		"Event counts", "<th>CSI</th>", "<td>0.228</td>", "Tropical cyclones by peak wind", "Atmospheric rivers by peak IVT", "frequency_difference_warm_minus_control",
-		"Trends of annual events", "Scenario differences", "west_pacific · tropical cyclone", "&#34;id&#34;: &#34;run-0001&#34;",
+		"Trends of annual events", "<th>p from</th>", "Scenario differences", "west_pacific · tropical cyclone", "&#34;id&#34;: &#34;run-0001&#34;",
 		"reference masks missing"} {
 		if !strings.Contains(page, want) {
 			t.Errorf("page lacks %q", want)
